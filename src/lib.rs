@@ -1,0 +1,16 @@
+//! redress: derive and run stable, causal inverse filters for linear time-invariant audio links.
+//!
+//! Data flows one way through the stages, each a module with its own error type:
+//! `model` (validated channel description) → `analysis` (roots, stability, verdict) →
+//! `design` (the inverse and its report) → `realize` (a concrete filter structure, checked after
+//! rounding) → `engine` (allocation-free per-channel processing); `io` reads and writes audio.
+//! `numeric` holds the polynomial and frequency-response arithmetic they share.
+
+pub mod analysis;
+pub mod design;
+pub mod engine;
+pub mod io;
+pub mod model;
+pub mod numeric;
+pub mod realize;
+pub mod report;

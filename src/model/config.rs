@@ -1,0 +1,1 @@
+//! TOML text → validated [`super::Link`]. (being written)

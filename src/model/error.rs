@@ -1,0 +1,3 @@
+//! Config errors. (being written)
+#[derive(Debug)]
+pub struct ConfigError;

@@ -1,0 +1,83 @@
+use std::path::PathBuf;
+
+use serde::Serialize;
+
+use super::TransferFunction;
+
+/// How the user described a path's channel in the config (kept for reports).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ModelForm {
+    DifferenceEquation,
+    ZerosPoles,
+    EchoPaths,
+    Sections,
+}
+
+/// The filter structure the inverse is to run in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Structure {
+    /// Direct form II transposed, one section of the full order.
+    DirectForm2T,
+    /// Cascade of second-order sections.
+    Sections,
+    /// Lattice–ladder (Gray–Markel).
+    LatticeLadder,
+}
+
+impl Structure {
+    pub fn name(self) -> &'static str {
+        match self {
+            Structure::DirectForm2T => "direct form II transposed",
+            Structure::Sections => "second-order sections",
+            Structure::LatticeLadder => "lattice-ladder",
+        }
+    }
+}
+
+/// Precision the running filter's coefficients are rounded to. State is always f64.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CoefficientPrecision {
+    F32,
+    F64,
+}
+
+/// One channel model, applying to one or more audio channels.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Path {
+    /// The user's name for this path (or "path N" when none was given).
+    pub label: String,
+    /// Zero-based audio channel indices this model applies to.
+    pub channels: Vec<usize>,
+    /// How the channel was described.
+    pub form: ModelForm,
+    /// The channel itself, H(z) = B(z)/A(z).
+    pub channel: TransferFunction,
+    /// Structure requested for the inverse.
+    pub structure: Structure,
+    /// Precision the inverse's coefficients are rounded to before running.
+    pub precision: CoefficientPrecision,
+    /// A zero or pole with | |z| − 1 | below this radius tolerance counts as on the circle.
+    pub circle_tolerance: f64,
+}
+
+/// A whole link: sample rate, channel count and a model for every channel.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Link {
+    /// File the link was read from, when it came from one.
+    pub source: Option<PathBuf>,
+    /// Sample rate in Hz.
+    pub sample_rate: f64,
+    /// Number of audio channels; every index in 0..channel_count has exactly one path.
+    pub channel_count: usize,
+    pub paths: Vec<Path>,
+}
+
+impl Link {
+    /// The path that models audio channel `channel`.
+    pub fn path_for_channel(&self, channel: usize) -> Option<&Path> {
+        self.paths.iter().find(|p| p.channels.contains(&channel))
+    }
+}

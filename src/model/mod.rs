@@ -1,0 +1,26 @@
+//! The validated channel model: what the link does to the signal, per output channel.
+//!
+//! `config` turns TOML text into a [`Link`]; everything downstream takes a `Link` (or one of its
+//! [`Path`]s) and never sees TOML. A `Link` that exists has passed every check in `config`.
+
+pub mod config;
+pub mod error;
+mod link;
+mod transfer;
+
+pub use error::ConfigError;
+pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
+pub use transfer::TransferFunction;
+
+/// Most coefficients a numerator or denominator may have (order + 1). Root finding is O(n³) and
+/// a link with more than this many taps is better described by its echo paths or sections.
+pub const MAX_ORDER: usize = 1024;
+
+/// Sample rates outside this range (Hz) are refused as implausible for an audio link.
+pub const SAMPLE_RATE_RANGE: (f64, f64) = (4_000.0, 384_000.0);
+
+/// Most channels one link may carry.
+pub const MAX_CHANNELS: usize = 64;
+
+/// Default radius tolerance: a zero with | |z| − 1 | below this counts as on the unit circle.
+pub const DEFAULT_CIRCLE_TOLERANCE: f64 = 1e-9;
