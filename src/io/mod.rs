@@ -1,1 +1,16 @@
-//! (being written)
+//! Audio in and out: WAV files read and written block by block, generated programme material,
+//! a simulated link that applies a configured channel to audio, and the error measure used to
+//! judge an equalized signal against its original.
+
+mod error;
+pub mod error_metric;
+pub mod programme;
+pub mod wav;
+
+pub use error::IoError;
+pub use error_metric::{error_db, ErrorMeasure, MetricError};
+pub use programme::{generate, ProgrammeSpec};
+pub use wav::{
+    read_wav, write_wav, SampleEncoding, WavBlockReader, WavBlockWriter, WavFormat, WriteSummary,
+    DEFAULT_BLOCK_FRAMES,
+};
