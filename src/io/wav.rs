@@ -265,7 +265,7 @@ impl WavBlockWriter {
         match self.format.encoding {
             SampleEncoding::Float => {
                 for &x in block {
-                    if !(x.abs() < 1.0) {
+                    if at_or_beyond_full_scale(x) {
                         self.clipped += 1;
                     }
                     self.writer
@@ -282,7 +282,7 @@ impl WavBlockWriter {
                     } else {
                         0.0
                     };
-                    if !(x.abs() < 1.0) {
+                    if at_or_beyond_full_scale(x) {
                         self.clipped += 1;
                     }
                     self.writer
@@ -311,6 +311,11 @@ impl WavBlockWriter {
             clipped_samples: self.clipped,
         })
     }
+}
+
+/// |x| ≥ 1, or not a number: a sample a player or converter would clip.
+fn at_or_beyond_full_scale(x: f32) -> bool {
+    x.is_nan() || x.abs() >= 1.0
 }
 
 /// Reads a whole WAV file: interleaved samples and the file's format.
