@@ -5,11 +5,13 @@
 mod error;
 pub mod error_metric;
 pub mod programme;
+pub mod simulated_link;
 pub mod wav;
 
 pub use error::IoError;
 pub use error_metric::{error_db, ErrorMeasure, MetricError};
 pub use programme::{generate, ProgrammeSpec};
+pub use simulated_link::{SimulatedLink, SimulationError};
 pub use wav::{
     read_wav, write_wav, SampleEncoding, WavBlockReader, WavBlockWriter, WavFormat, WriteSummary,
     DEFAULT_BLOCK_FRAMES,
