@@ -9,7 +9,8 @@
 //! ```
 //!
 //! summed over every channel and every frame n from `skip` up to the end of the shorter of the two
-//! (the reference counted as D frames longer), with r[m] = 0 for m < 0. D is the delay the
+//! (the reference counted as D frames longer), with r[m] = 0 for m < 0. D may differ per channel
+//! ([`error_db_per_channel`]). D is the delay the
 //! inverse cannot undo (the link's bulk delay): the equalized signal is at best the reference
 //! delayed by D. `skip` leaves out a start-up stretch, e.g. while a filter's state fills.
 //!
@@ -24,7 +25,7 @@ use std::fmt;
 pub struct ErrorMeasure {
     /// 10·log10(error energy / reference energy); −∞ when the two match exactly.
     pub db: f64,
-    /// Frames compared (per channel).
+    /// Frames compared (per channel; the most of any channel when their delays differ).
     pub frames: usize,
     pub error_energy: f64,
     pub reference_energy: f64,
@@ -33,8 +34,6 @@ pub struct ErrorMeasure {
 /// Why a comparison could not be made.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum MetricError {
-    /// The two signals have different channel counts.
-    ChannelMismatch { test: usize, reference: usize },
     /// A slice is not a whole number of frames, or the channel count is zero.
     PartialFrame { samples: usize, channels: usize },
     /// Nothing is left to compare after the delay and skip.
@@ -51,11 +50,6 @@ pub enum MetricError {
 impl fmt::Display for MetricError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            MetricError::ChannelMismatch { test, reference } => write!(
-                f,
-                "the signal has {test} channels but the reference has {reference}\n  help: \
-                 compare files with the same channel count"
-            ),
             MetricError::PartialFrame { samples, channels } => write!(
                 f,
                 "{samples} samples are not a whole number of {channels}-channel frames"
@@ -91,6 +85,19 @@ pub fn error_db(
     delay: usize,
     skip: usize,
 ) -> Result<ErrorMeasure, MetricError> {
+    error_db_per_channel(test, reference, &vec![delay; channels], skip)
+}
+
+/// As [`error_db`], with a delay of its own for each channel (`delays.len()` channels), for
+/// links whose paths have different bulk delays. Channel c is compared over frames
+/// `skip .. min(test frames, reference frames + delays[c])`.
+pub fn error_db_per_channel(
+    test: &[f32],
+    reference: &[f32],
+    delays: &[usize],
+    skip: usize,
+) -> Result<ErrorMeasure, MetricError> {
+    let channels = delays.len();
     for samples in [test.len(), reference.len()] {
         if channels == 0 || samples % channels != 0 {
             return Err(MetricError::PartialFrame { samples, channels });
@@ -98,19 +105,21 @@ pub fn error_db(
     }
     let test_frames = test.len() / channels;
     let reference_frames = reference.len() / channels;
-    let end = test_frames.min(reference_frames.saturating_add(delay));
-    if skip >= end {
-        return Err(MetricError::NothingToCompare {
-            test_frames,
-            reference_frames,
-            delay,
-            skip,
-        });
-    }
     let mut error_energy = 0.0f64;
     let mut reference_energy = 0.0f64;
-    for n in skip..end {
-        for c in 0..channels {
+    let mut frames = 0;
+    for (c, &delay) in delays.iter().enumerate() {
+        let end = test_frames.min(reference_frames.saturating_add(delay));
+        if skip >= end {
+            return Err(MetricError::NothingToCompare {
+                test_frames,
+                reference_frames,
+                delay,
+                skip,
+            });
+        }
+        frames = frames.max(end - skip);
+        for n in skip..end {
             let x = f64::from(test[n * channels + c]);
             let r = if n >= delay {
                 f64::from(reference[(n - delay) * channels + c])
@@ -126,7 +135,7 @@ pub fn error_db(
     }
     Ok(ErrorMeasure {
         db: 10.0 * (error_energy / reference_energy).log10(),
-        frames: end - skip,
+        frames,
         error_energy,
         reference_energy,
     })
@@ -172,6 +181,20 @@ mod tests {
         // Without the delay the two do not line up.
         assert!(error_db(&test, &reference, 2, 0, 0).unwrap().db > -3.0);
         assert_eq!(format_db(measure.db), "−∞ dB (identical)");
+    }
+
+    #[test]
+    fn each_channel_may_have_its_own_delay() {
+        // Left delayed by 1, right by 4: lined up per channel the match is exact.
+        let reference: Vec<f32> = (0..2 * 50).map(|n| ((n * 31) % 7) as f32 - 3.0).collect();
+        let mut test = vec![0.0f32; 2 * 60];
+        for n in 0..50 {
+            test[(n + 1) * 2] = reference[n * 2];
+            test[(n + 4) * 2 + 1] = reference[n * 2 + 1];
+        }
+        let measure = error_db_per_channel(&test, &reference, &[1, 4], 0).unwrap();
+        assert_eq!(measure.db, f64::NEG_INFINITY);
+        assert!(error_db(&test, &reference, 2, 1, 0).unwrap().db > -10.0);
     }
 
     #[test]

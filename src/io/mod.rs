@@ -4,12 +4,17 @@
 
 mod error;
 pub mod error_metric;
+pub mod offline;
 pub mod programme;
 pub mod simulated_link;
 pub mod wav;
 
 pub use error::IoError;
-pub use error_metric::{error_db, ErrorMeasure, MetricError};
+pub use error_metric::{error_db, error_db_per_channel, format_db, ErrorMeasure, MetricError};
+pub use offline::{
+    compare_files, distort_file, run_file, BlockProcessor, FileRunOptions, FileRunSummary,
+    OfflineError, ProgressSteps,
+};
 pub use programme::{generate, ProgrammeSpec};
 pub use simulated_link::{SimulatedLink, SimulationError};
 pub use wav::{
