@@ -5,7 +5,8 @@ use std::f64::consts::TAU;
 use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
-    BlockingZero, Coefficients, InverseEntry, PathReport, RootEntry, StepDownEntry, VerdictEntry,
+    AllPassEntry, BlockingZero, BoostCapEntry, Coefficients, FirEntry, InverseEntry,
+    MovedZeroEntry, PathReport, RootEntry, StepDownEntry, VerdictEntry,
 };
 use crate::analysis::{AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict};
 use crate::design::{DesignError, DesignMethod, InverseDesign};
@@ -215,19 +216,57 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
 }
 
 fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
+    let ms = |samples: usize| samples as f64 * 1_000.0 / sample_rate;
     InverseEntry {
         method: match d.method {
             DesignMethod::Exact => "exact",
+            DesignMethod::MinimumPhase => "minimum_phase",
+            DesignMethod::LeastSquaresFir => "least_squares_fir",
         }
         .to_string(),
+        method_name: d.method.name().to_string(),
+        gives_up: d.gives_up(),
         coefficients: coefficients(&d.inverse),
         difference_equation: difference_equation(&d.inverse.b, &d.inverse.a),
         gain: d.gain,
         residual_delay_samples: d.residual_delay_samples,
-        residual_delay_ms: d.residual_delay_samples as f64 * 1_000.0 / sample_rate,
+        residual_delay_ms: ms(d.residual_delay_samples),
+        added_latency_samples: d.added_latency_samples,
+        added_latency_ms: ms(d.added_latency_samples),
         peak_boost_db: d.peak_boost_db,
         peak_boost_hz: d.peak_boost_hz,
         decay_60db_ms: d.decay_60db_seconds * 1_000.0,
+        unity_scale_db: d.unity_scale_db,
+        reflected_zeros: roots(&d.reflected_zeros, sample_rate),
+        all_pass: d.all_pass.as_ref().map(|ap| AllPassEntry {
+            group_delay_min_ms: ap.group_delay_min_ms,
+            group_delay_max_ms: ap.group_delay_max_ms,
+        }),
+        boost_cap: d.boost_cap.as_ref().map(|cap| BoostCapEntry {
+            cap_db: cap.cap_db,
+            radius_limit: cap.radius_limit,
+            moved_zeros: cap
+                .moved_zeros
+                .iter()
+                .map(|m| MovedZeroEntry {
+                    from_re: m.from.re,
+                    from_im: m.from.im,
+                    to_re: m.to.re,
+                    to_im: m.to.im,
+                })
+                .collect(),
+            level_reduction_db: cap.level_reduction_db,
+            peak_before_db: cap.peak_before_db,
+        }),
+        fir: d.fir.as_ref().map(|fir| FirEntry {
+            taps: fir.taps,
+            delay_samples: fir.delay_samples,
+            delay_ms: fir.delay_ms,
+            delay_searched: fir.delay_searched,
+            regularization: fir.regularization,
+            level_reduction_db: fir.level_reduction_db,
+            residual_error_db: fir.residual_error_db,
+        }),
     }
 }
 

@@ -126,8 +126,12 @@ pub struct BlockingZero {
 /// The designed inverse G(z).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct InverseEntry {
-    /// How it was obtained, e.g. "exact".
+    /// How it was obtained: "exact", "minimum_phase" or "least_squares_fir".
     pub method: String,
+    /// The same in plain words, e.g. "minimum-phase substitute".
+    pub method_name: String,
+    /// What this design leaves uncorrected, in one plain sentence.
+    pub gives_up: String,
     /// G(z) with a₀ = 1.
     pub coefficients: Coefficients,
     /// The recursion that runs it, "y[n] = … x[n] … − … y[n−1] …".
@@ -137,11 +141,66 @@ pub struct InverseEntry {
     /// Delay left in channel∘inverse (the bulk delay).
     pub residual_delay_samples: usize,
     pub residual_delay_ms: f64,
+    /// Delay the inverse adds on purpose (the FIR inverse's D; 0 otherwise).
+    pub added_latency_samples: usize,
+    pub added_latency_ms: f64,
     /// Largest gain of the inverse over frequency and where.
     pub peak_boost_db: f64,
     pub peak_boost_hz: f64,
     /// Time for the inverse's impulse response to fall by 60 dB.
     pub decay_60db_ms: f64,
+    /// Gain applied to hold the cascade at 0 dB at the configured frequency (0 when none).
+    pub unity_scale_db: f64,
+    /// Zeros outside the circle that were reflected to 1/conj(z) (as they were).
+    pub reflected_zeros: Vec<RootEntry>,
+    /// The uncorrected all-pass left by reflection, when zeros were reflected.
+    pub all_pass: Option<AllPassEntry>,
+    /// What the boost cap changed, when it acted.
+    pub boost_cap: Option<BoostCapEntry>,
+    /// Details of a least-squares FIR inverse.
+    pub fir: Option<FirEntry>,
+}
+
+/// The phase error a minimum-phase substitute leaves: an all-pass, described by its group delay.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AllPassEntry {
+    pub group_delay_min_ms: f64,
+    pub group_delay_max_ms: f64,
+}
+
+/// What the boost cap did.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BoostCapEntry {
+    pub cap_db: f64,
+    /// Radius the outermost zeros were pulled in to (null when none moved).
+    pub radius_limit: Option<f64>,
+    pub moved_zeros: Vec<MovedZeroEntry>,
+    /// Broadband level reduction when moving zeros was not enough (dB ≥ 0).
+    pub level_reduction_db: f64,
+    /// Peak the inverse would have had without the cap (null: unbounded, a zero on the circle).
+    pub peak_before_db: f64,
+}
+
+/// A zero the boost cap moved.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MovedZeroEntry {
+    pub from_re: f64,
+    pub from_im: f64,
+    pub to_re: f64,
+    pub to_im: f64,
+}
+
+/// The least-squares FIR inverse's figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FirEntry {
+    pub taps: usize,
+    pub delay_samples: usize,
+    pub delay_ms: f64,
+    pub delay_searched: bool,
+    pub regularization: f64,
+    pub level_reduction_db: f64,
+    /// ‖h∗g − δ(n−D)‖² in dB.
+    pub residual_error_db: f64,
 }
 
 /// The structure the inverse runs in.

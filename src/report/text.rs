@@ -158,23 +158,31 @@ fn short_margin(margin: f64) -> String {
 }
 
 fn inverse_block(out: &mut String, inverse: &InverseEntry) {
-    line(
-        out,
-        2,
-        "inverse",
-        &format!("{} ({})", inverse.difference_equation, inverse.method),
-    );
+    line(out, 2, "inverse", &inverse.method_name);
+    line(out, 4, "runs as", &inverse.difference_equation);
     line(out, 4, "gain", &significant(inverse.gain));
     line(
         out,
         4,
         "residual delay",
         &format!(
-            "{} samples ({} ms), left in the cascade: no causal filter can advance time",
-            inverse.residual_delay_samples,
+            "{} ({} ms), the link's own: no causal filter can advance time",
+            samples(inverse.residual_delay_samples),
             significant(inverse.residual_delay_ms)
         ),
     );
+    if inverse.added_latency_samples > 0 {
+        line(
+            out,
+            4,
+            "added latency",
+            &format!(
+                "{} ({} ms)",
+                samples(inverse.added_latency_samples),
+                significant(inverse.added_latency_ms)
+            ),
+        );
+    }
     line(
         out,
         4,
@@ -191,6 +199,92 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
         "60 dB decay",
         &format!("{} ms", significant(inverse.decay_60db_ms)),
     );
+    if inverse.unity_scale_db != 0.0 {
+        line(
+            out,
+            4,
+            "unity scale",
+            &format!("{} dB", fixed(inverse.unity_scale_db, 2)),
+        );
+    }
+    for zero in &inverse.reflected_zeros {
+        line(
+            out,
+            4,
+            "reflected zero",
+            &format!(
+                "{} (|z| = {}) moved to 1/conj(z)",
+                complex(zero.re, zero.im),
+                significant(zero.radius)
+            ),
+        );
+    }
+    if let Some(all_pass) = &inverse.all_pass {
+        line(
+            out,
+            4,
+            "phase left",
+            &format!(
+                "an all-pass with {}–{} ms group delay",
+                fixed(all_pass.group_delay_min_ms, 3),
+                fixed(all_pass.group_delay_max_ms, 3)
+            ),
+        );
+    }
+    if let Some(cap) = &inverse.boost_cap {
+        let mut what = format!("{} dB", fixed(cap.cap_db, 1));
+        if let Some(radius) = cap.radius_limit {
+            what.push_str(&format!(
+                ": {} zero{} pulled in to |z| = {}",
+                cap.moved_zeros.len(),
+                if cap.moved_zeros.len() == 1 { "" } else { "s" },
+                significant(radius)
+            ));
+        }
+        if cap.level_reduction_db > 0.0 {
+            what.push_str(&format!(
+                "; level lowered {} dB",
+                fixed(cap.level_reduction_db, 2)
+            ));
+        }
+        let before = if cap.peak_before_db.is_finite() {
+            format!("{} dB", fixed(cap.peak_before_db, 1))
+        } else {
+            "unbounded".to_string()
+        };
+        what.push_str(&format!(" (uncapped peak {before})"));
+        line(out, 4, "boost cap", &what);
+    }
+    if let Some(fir) = &inverse.fir {
+        line(
+            out,
+            4,
+            "FIR",
+            &format!(
+                "{} taps, delay {} ({} ms, {}), residual error {} dB",
+                fir.taps,
+                samples(fir.delay_samples),
+                significant(fir.delay_ms),
+                if fir.delay_searched {
+                    "searched"
+                } else {
+                    "given"
+                },
+                fixed(fir.residual_error_db, 1)
+            ),
+        );
+    }
+    line(out, 4, "gives up", &inverse.gives_up);
+}
+
+/// "0.5 − 0.25j".
+fn complex(re: f64, im: f64) -> String {
+    let sign = if im < 0.0 { "−" } else { "+" };
+    format!("{} {sign} {}j", significant(re), significant(im.abs()))
+}
+
+fn samples(n: usize) -> String {
+    format!("{n} sample{}", if n == 1 { "" } else { "s" })
 }
 
 fn realization_block(out: &mut String, realization: &RealizationEntry) {
