@@ -5,15 +5,16 @@
 
 use std::fmt;
 
-use crate::model::Link;
+use crate::model::{CoefficientPrecision, Link, Structure};
+use crate::realize::{realize, Filter, RealizeError};
 
 /// Why a link cannot be simulated.
 #[derive(Debug, Clone, PartialEq)]
 pub enum SimulationError {
     /// No path models this audio channel (the config stage should have refused this).
     NoPathForChannel { channel: usize },
-    /// The channel's denominator has a₀ = 0 (the config stage should have refused this).
-    ZeroLeadingDenominator { label: String },
+    /// The channel cannot be run as a filter (unstable, or not a valid transfer function).
+    NotRunnable { label: String, source: RealizeError },
 }
 
 impl fmt::Display for SimulationError {
@@ -24,10 +25,9 @@ impl fmt::Display for SimulationError {
                 "no path models audio channel {channel}\n  help: give every channel from 0 to \
                  channel_count − 1 to exactly one [[path]]"
             ),
-            SimulationError::ZeroLeadingDenominator { label } => write!(
+            SimulationError::NotRunnable { label, source } => write!(
                 f,
-                "path `{label}`: the channel's denominator starts with 0\n  help: scale the \
-                 denominator so a[0] is non-zero (normally 1)"
+                "path `{label}`: the channel itself cannot be simulated: {source}"
             ),
         }
     }
@@ -35,10 +35,11 @@ impl fmt::Display for SimulationError {
 
 impl std::error::Error for SimulationError {}
 
-/// One running copy of the channel H(z) per audio channel.
+/// One running copy of the channel H(z) per audio channel: direct form II transposed with f64
+/// coefficients and state, the most literal reading of the channel's difference equation.
 #[derive(Debug, Clone)]
 pub struct SimulatedLink {
-    channels: Vec<ChannelRecursion>,
+    channels: Vec<Filter>,
 }
 
 impl SimulatedLink {
@@ -48,13 +49,16 @@ impl SimulatedLink {
             let path = link
                 .path_for_channel(channel)
                 .ok_or(SimulationError::NoPathForChannel { channel })?;
-            if path.channel.a.first().is_none_or(|&a0| a0 == 0.0) {
-                return Err(SimulationError::ZeroLeadingDenominator {
-                    label: path.label.clone(),
-                });
-            }
-            let normalised = path.channel.normalised();
-            channels.push(ChannelRecursion::new(&normalised.b, &normalised.a));
+            let realized = realize(
+                &path.channel,
+                Structure::DirectForm2T,
+                CoefficientPrecision::F64,
+            )
+            .map_err(|source| SimulationError::NotRunnable {
+                label: path.label.clone(),
+                source,
+            })?;
+            channels.push(realized.filter);
         }
         Ok(Self { channels })
     }
@@ -80,51 +84,10 @@ impl SimulatedLink {
     /// Runs a whole interleaved signal through a fresh copy of the link.
     pub fn apply(&self, input: &[f32]) -> Vec<f32> {
         let mut fresh = self.clone();
-        fresh.channels.iter_mut().for_each(ChannelRecursion::reset);
+        fresh.channels.iter_mut().for_each(Filter::reset);
         let mut output = vec![0.0; input.len()];
         fresh.process_interleaved(input, &mut output);
         output
-    }
-}
-
-/// H(z) = B(z)/A(z) with a₀ = 1, direct form II transposed, state in f64.
-#[derive(Debug, Clone)]
-struct ChannelRecursion {
-    b: Vec<f64>,
-    a: Vec<f64>,
-    state: Vec<f64>,
-}
-
-impl ChannelRecursion {
-    fn new(b: &[f64], a: &[f64]) -> Self {
-        let len = b.len().max(a.len());
-        let mut bp = b.to_vec();
-        let mut ap = a.to_vec();
-        bp.resize(len, 0.0);
-        ap.resize(len, 0.0);
-        Self {
-            b: bp,
-            a: ap,
-            state: vec![0.0; len.saturating_sub(1)],
-        }
-    }
-
-    fn process_sample(&mut self, x: f64) -> f64 {
-        let order = self.state.len();
-        let y = self.b[0] * x + self.state.first().copied().unwrap_or(0.0);
-        for i in 0..order {
-            let next = if i + 1 < order {
-                self.state[i + 1]
-            } else {
-                0.0
-            };
-            self.state[i] = next + self.b[i + 1] * x - self.a[i + 1] * y;
-        }
-        y
-    }
-
-    fn reset(&mut self) {
-        self.state.fill(0.0);
     }
 }
 
@@ -180,6 +143,16 @@ mod tests {
         sim.process_interleaved(&input[4..], &mut second);
         assert_eq!(first, [0.0, 2.0, 0.0, 0.5]);
         assert_eq!(second, [1.0, 0.0, 0.0, 0.0]);
+    }
+
+    #[test]
+    fn an_unstable_channel_is_refused() {
+        let tf = TransferFunction::new(vec![1.0], vec![1.0, -1.2]);
+        let error = SimulatedLink::new(&link(vec![(vec![0], tf)], 1)).unwrap_err();
+        assert!(
+            matches!(error, SimulationError::NotRunnable { .. }),
+            "{error}"
+        );
     }
 
     #[test]
