@@ -43,6 +43,13 @@ pub enum RealizeError {
         max_pole_radius: f64,
         detail: String,
     },
+    /// After rounding the structure is stable, but a pole sits closer to the circle than the
+    /// margin the pipeline requires before it trusts a filter to run unattended.
+    TooCloseToCircle {
+        structure: Structure,
+        max_pole_radius: f64,
+        floor: f64,
+    },
 }
 
 /// A structure's name as the model spells it when serialised (the spelling users write).
@@ -146,6 +153,19 @@ impl std::fmt::Display for RealizeError {
                  help: use structure {}; they keep their poles far better under rounding",
                 structure.name(),
                 detail_suffix(detail),
+                alternatives(*structure)
+            ),
+            RealizeError::TooCloseToCircle {
+                structure,
+                max_pole_radius,
+                floor,
+            } => write!(
+                f,
+                "the {} realization keeps a pole at radius {max_pole_radius:.12} after rounding, \
+                 closer to the unit circle than the required margin of {floor:.0e}\n  \
+                 help: use structure {}, or lower boost_cap_db so the inverse's poles sit \
+                 further inside",
+                structure.name(),
                 alternatives(*structure)
             ),
         }

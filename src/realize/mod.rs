@@ -282,3 +282,17 @@ fn lattice_check(k: &[f64]) -> PoleCheck {
         root_problem,
     }
 }
+
+#[cfg(any(test, feature = "test-door"))]
+impl Filter {
+    /// Test-only door: a direct-form filter straight from coefficients, with no stability check.
+    /// Compiled only for tests (feature `test-door`); the pipeline never builds filters this way.
+    /// Tests use it to put a runaway filter in front of the engine's guards.
+    pub fn unvalidated_direct_form(b: Vec<f64>, a: Vec<f64>) -> Filter {
+        let n = b.len().max(a.len());
+        let (mut b, mut a) = (b, a);
+        b.resize(n, 0.0);
+        a.resize(n, 0.0);
+        Filter::DirectForm2T(DirectForm2T::new(b, a))
+    }
+}
