@@ -8,7 +8,9 @@ use super::error_metric::{error_db, ErrorMeasure, MetricError};
 use super::simulated_link::{SimulatedLink, SimulationError};
 use super::wav::{read_wav, WavBlockReader, WavBlockWriter, WavFormat};
 use super::IoError;
+use crate::engine::{EngineError, Equalizer};
 use crate::model::Link;
+use crate::pipeline::LinkPlan;
 
 /// Anything that turns interleaved blocks into interleaved blocks of the same size, carrying its
 /// state from one block to the next.
@@ -23,6 +25,15 @@ impl BlockProcessor for SimulatedLink {
     }
     fn process_interleaved(&mut self, input: &[f32], output: &mut [f32]) {
         SimulatedLink::process_interleaved(self, input, output);
+    }
+}
+
+impl BlockProcessor for Equalizer {
+    fn channel_count(&self) -> usize {
+        Equalizer::channel_count(self)
+    }
+    fn process_interleaved(&mut self, input: &[f32], output: &mut [f32]) {
+        Equalizer::process_interleaved(self, input, output);
     }
 }
 
@@ -65,7 +76,7 @@ pub enum OfflineError {
         problems: Vec<String>,
     },
     /// The equalizer could not be built from the plan.
-    Engine(String),
+    Engine(EngineError),
     /// The block size is zero.
     EmptyBlock,
 }
@@ -86,7 +97,7 @@ impl fmt::Display for OfflineError {
                     "\n  help: run `redress check` on the config for the full analysis"
                 )
             }
-            OfflineError::Engine(e) => write!(f, "could not build the equalizer: {e}"),
+            OfflineError::Engine(e) => e.fmt(f),
             OfflineError::EmptyBlock => write!(f, "the block size must be at least 1 frame"),
         }
     }
@@ -225,6 +236,30 @@ pub fn distort_file(
         options,
         progress,
     )
+}
+
+/// The equalizer for a plan, or why the plan cannot run.
+pub fn equalizer_for(plan: &LinkPlan) -> Result<Equalizer, OfflineError> {
+    if !plan.is_runnable() {
+        return Err(OfflineError::NotRunnable {
+            problems: plan.problems(),
+        });
+    }
+    Equalizer::from_plan(plan, 0).map_err(OfflineError::Engine)
+}
+
+/// Equalizes `input` into `output` with the plan's inverses, block by block. Refuses a plan that
+/// is not runnable, with its reasons.
+pub fn apply_file(
+    plan: &LinkPlan,
+    input: &Path,
+    output: &Path,
+    options: FileRunOptions,
+    progress: &mut dyn FnMut(u32),
+) -> Result<FileRunSummary, OfflineError> {
+    let mut equalizer = equalizer_for(plan)?;
+    let rate = plan.sample_rate.round() as u32;
+    run_file(&mut equalizer, rate, input, output, options, progress)
 }
 
 /// The link's sample rate as a WAV header spells it.

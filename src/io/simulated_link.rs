@@ -94,7 +94,9 @@ impl SimulatedLink {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
+    use crate::model::{
+        CoefficientPrecision, InversePolicy, ModelForm, Path, Structure, TransferFunction,
+    };
 
     fn link(paths: Vec<(Vec<usize>, TransferFunction)>, channel_count: usize) -> Link {
         Link {
@@ -112,6 +114,7 @@ mod tests {
                     structure: Structure::DirectForm2T,
                     precision: CoefficientPrecision::F64,
                     circle_tolerance: 1e-9,
+                    inverse: InversePolicy::default(),
                 })
                 .collect(),
         }

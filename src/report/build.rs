@@ -5,12 +5,74 @@ use std::f64::consts::TAU;
 use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
-    AllPassEntry, BlockingZero, BoostCapEntry, Coefficients, FirEntry, InverseEntry,
-    MovedZeroEntry, PathReport, RootEntry, StepDownEntry, VerdictEntry,
+    AllPassEntry, BlockingZero, BoostCapEntry, Coefficients, FirEntry, InverseEntry, LinkReport,
+    MovedZeroEntry, PathReport, RealizationEntry, RootEntry, StepDownEntry, StructureSwitchEntry,
+    VerdictEntry, SCHEMA_VERSION,
 };
 use crate::analysis::{AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict};
 use crate::design::{DesignError, DesignMethod, InverseDesign};
-use crate::model::{ModelForm, Path, TransferFunction};
+use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
+use crate::pipeline::{LinkPlan, StructureSwitch};
+use crate::realize::Realization;
+
+/// The whole link's report. `source` is the config file the link came from, if any.
+pub fn link_report(plan: &LinkPlan, source: Option<&std::path::Path>) -> LinkReport {
+    let paths = plan
+        .paths
+        .iter()
+        .map(|p| {
+            let realization = p.realization.as_ref().map(|r| match r {
+                Ok(r) => Ok(realization(r, p.switched.as_ref())),
+                Err(e) => Err(e.to_string()),
+            });
+            path_report(
+                &p.path,
+                plan.sample_rate,
+                &p.analysis,
+                p.design.as_ref(),
+                realization,
+            )
+        })
+        .collect();
+    LinkReport {
+        schema: "redress-link-report",
+        schema_version: SCHEMA_VERSION,
+        source: source.map(|s| s.display().to_string()),
+        sample_rate_hz: plan.sample_rate,
+        channel_count: plan.channel_count,
+        runnable: plan.is_runnable(),
+        problems: plan.problems(),
+        paths,
+    }
+}
+
+/// The config's spelling of a structure.
+fn structure_key(structure: Structure) -> String {
+    match structure {
+        Structure::DirectForm2T => "direct_form_2t",
+        Structure::Sections => "sections",
+        Structure::LatticeLadder => "lattice_ladder",
+    }
+    .to_string()
+}
+
+fn realization(r: &Realization, switched: Option<&StructureSwitch>) -> RealizationEntry {
+    RealizationEntry {
+        structure: structure_key(r.structure),
+        structure_name: r.structure.name().to_string(),
+        precision: match r.precision {
+            CoefficientPrecision::F32 => "f32",
+            CoefficientPrecision::F64 => "f64",
+        }
+        .to_string(),
+        coefficients: serde_json::to_value(&r.coefficients).unwrap_or(serde_json::Value::Null),
+        max_pole_radius: r.max_pole_radius,
+        switched_from: switched.map(|s| StructureSwitchEntry {
+            requested: structure_key(s.requested),
+            reason: s.reason.clone(),
+        }),
+    }
+}
 
 /// Up to this many radii are quoted in a verdict sentence; the rest are counted.
 const RADII_QUOTED: usize = 4;
@@ -22,7 +84,7 @@ pub fn path_report(
     sample_rate: f64,
     analysis: &Result<ChannelAnalysis, AnalysisError>,
     design: Option<&Result<InverseDesign, DesignError>>,
-    realization: Option<Result<super::schema::RealizationEntry, String>>,
+    realization: Option<Result<RealizationEntry, String>>,
 ) -> PathReport {
     let ms = |samples: usize| samples as f64 * 1_000.0 / sample_rate;
     let (bulk_delay, zeros, poles, channel_stable, step_down, analysis_error) = match analysis {
@@ -291,7 +353,7 @@ mod tests {
     use super::*;
     use crate::analysis::analyse;
     use crate::design::design_exact;
-    use crate::model::{CoefficientPrecision, Structure};
+    use crate::model::InversePolicy;
 
     fn path(b: Vec<f64>, a: Vec<f64>) -> Path {
         Path {
@@ -302,6 +364,7 @@ mod tests {
             structure: Structure::DirectForm2T,
             precision: CoefficientPrecision::F64,
             circle_tolerance: 1e-9,
+            inverse: InversePolicy::default(),
         }
     }
 

@@ -9,7 +9,7 @@ mod numbers;
 pub mod schema;
 mod text;
 
-pub use build::{form_name, path_report};
+pub use build::{form_name, link_report, path_report};
 pub use difference_equation::difference_equation;
 pub use json::render_json;
 pub use schema::{LinkReport, PathReport, SCHEMA_VERSION};

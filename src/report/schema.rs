@@ -206,7 +206,7 @@ pub struct FirEntry {
 /// The structure the inverse runs in.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RealizationEntry {
-    /// "direct_form2_t", "sections" or "lattice_ladder".
+    /// "direct_form_2t", "sections" or "lattice_ladder" (the config's spellings).
     pub structure: String,
     /// Plain name, e.g. "direct form II transposed".
     pub structure_name: String,
@@ -216,4 +216,15 @@ pub struct RealizationEntry {
     pub coefficients: serde_json::Value,
     /// Largest pole radius of the realized filter, after rounding.
     pub max_pole_radius: f64,
+    /// Why the requested structure was not used, when the realization switched to a sturdier
+    /// one (null when it runs as requested).
+    pub switched_from: Option<StructureSwitchEntry>,
+}
+
+/// A switch away from the requested structure.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StructureSwitchEntry {
+    /// The structure the config asked for ("direct_form_2t", "sections", "lattice_ladder").
+    pub requested: String,
+    pub reason: String,
 }

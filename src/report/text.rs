@@ -297,6 +297,18 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
             realization.structure_name, realization.precision
         ),
     );
+    if let Some(switch) = &realization.switched_from {
+        line(
+            out,
+            4,
+            "switched from",
+            &format!(
+                "{} (asked for): {}",
+                switch.requested.replace('_', " "),
+                switch.reason
+            ),
+        );
+    }
     line(
         out,
         4,
