@@ -238,9 +238,11 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
     let mut parts = Vec::new();
     if !outside.is_empty() {
         let count: usize = outside.iter().map(|p| p.root.multiplicity).sum();
-        let quoted: Vec<String> = outside
+        // Largest first, and each distinct radius once (echo paths put many zeros on one).
+        let mut sorted: Vec<&PlacedRoot> = outside.iter().collect();
+        sorted.sort_by(|a, b| b.root.radius().total_cmp(&a.root.radius()));
+        let mut quoted: Vec<String> = sorted
             .iter()
-            .take(RADII_QUOTED)
             .map(|p| {
                 format!(
                     "|z| = {}, {} beyond",
@@ -249,11 +251,14 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
                 )
             })
             .collect();
+        quoted.dedup();
+        let distinct = quoted.len();
+        quoted.truncate(RADII_QUOTED);
         parts.push(format!(
             "{count} zero{} outside the unit circle ({}{})",
             plural(count),
             quoted.join("; "),
-            more(outside.len())
+            more(distinct)
         ));
     }
     if !on_circle.is_empty() {
@@ -342,7 +347,7 @@ fn plural(n: usize) -> &'static str {
 
 fn more(listed: usize) -> String {
     if listed > RADII_QUOTED {
-        format!("; {} more", listed - RADII_QUOTED)
+        format!("; {} more radii", listed - RADII_QUOTED)
     } else {
         String::new()
     }

@@ -5,8 +5,14 @@ use std::fmt::Write;
 use super::numbers::{fixed, list, significant};
 use super::schema::{InverseEntry, LinkReport, PathReport, RealizationEntry, RootEntry};
 
-/// Width of the label column in a block.
-const LABEL: usize = 16;
+/// Column at which values start, whatever the label's indent.
+const VALUE_COLUMN: usize = 20;
+
+/// Zeros or poles listed one per line before the rest are summarised (the JSON has them all).
+const ROOT_ROWS: usize = 12;
+
+/// Coefficient lists longer than this are written sparsely or wrapped.
+const SHORT_LIST: usize = 12;
 
 pub fn render_text(report: &LinkReport) -> String {
     let mut out = String::new();
@@ -53,8 +59,8 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
         channels.join(", ")
     );
     line(out, 2, "described as", &path.form.replace('_', " "));
-    line(out, 2, "channel", &format!("b = {}", list(&path.channel.b)));
-    line(out, 2, "", &format!("a = {}", list(&path.channel.a)));
+    coefficient_list(out, 2, "channel", "b", &path.channel.b);
+    coefficient_list(out, 2, "", "a", &path.channel.a);
     line(
         out,
         2,
@@ -126,13 +132,21 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
         return;
     }
     let count: usize = roots.iter().map(|r| r.multiplicity).sum();
-    line(out, 2, name, &count.to_string());
+    let mut by_radius: Vec<&RootEntry> = roots.iter().collect();
+    // Largest radius first: the roots nearest (or beyond) the circle are the ones that matter.
+    by_radius.sort_by(|a, b| b.radius.total_cmp(&a.radius));
+    let heading = if roots.len() > ROOT_ROWS {
+        format!("{count}, the {ROOT_ROWS} largest first")
+    } else {
+        count.to_string()
+    };
+    line(out, 2, name, &heading);
     let _ = writeln!(
         out,
         "    {:>11} {:>11} {:>10} {:>10} {:>11} {:>4}  {:<9} {:>11}",
         "re", "im", "|z|", "angle rad", "angle Hz", "mult", "where", "1 − |z|"
     );
-    for r in roots {
+    for r in by_radius.iter().take(ROOT_ROWS) {
         let _ = writeln!(
             out,
             "    {:>11} {:>11} {:>10} {:>10} {:>11} {:>4}  {:<9} {:>11}",
@@ -144,6 +158,66 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
             r.multiplicity,
             r.placement.replace('_', " "),
             short_margin(r.margin)
+        );
+    }
+    if roots.len() > ROOT_ROWS {
+        let rest = &by_radius[ROOT_ROWS..];
+        let largest = rest.first().map_or(0.0, |r| r.radius);
+        let smallest = rest.last().map_or(0.0, |r| r.radius);
+        let _ = writeln!(
+            out,
+            "    … {} more with |z| from {} to {} (all of them: --json)",
+            rest.len(),
+            fixed(smallest, 6),
+            fixed(largest, 6)
+        );
+    }
+}
+
+/// "b = [..]" on one line when short; only the non-zero taps when mostly zeros (echo paths);
+/// otherwise wrapped eight to a line.
+fn coefficient_list(out: &mut String, indent: usize, label: &str, name: &str, values: &[f64]) {
+    if values.len() <= SHORT_LIST {
+        line(out, indent, label, &format!("{name} = {}", list(values)));
+        return;
+    }
+    let non_zero: Vec<(usize, f64)> = values
+        .iter()
+        .copied()
+        .enumerate()
+        .filter(|(_, v)| *v != 0.0)
+        .collect();
+    if non_zero.len() <= SHORT_LIST {
+        let taps: Vec<String> = non_zero
+            .iter()
+            .map(|(i, v)| format!("{name}[{i}] = {}", significant(*v)))
+            .collect();
+        line(
+            out,
+            indent,
+            label,
+            &format!(
+                "{} of {} {name} coefficients non-zero: {}",
+                non_zero.len(),
+                values.len(),
+                taps.join(", ")
+            ),
+        );
+        return;
+    }
+    line(
+        out,
+        indent,
+        label,
+        &format!("{name} = {} coefficients:", values.len()),
+    );
+    for (row, chunk) in values.chunks(8).enumerate() {
+        let items: Vec<String> = chunk.iter().map(|v| significant(*v)).collect();
+        line(
+            out,
+            indent,
+            "",
+            &format!("  [{:>3}] {}", row * 8, items.join(", ")),
         );
     }
 }
@@ -326,9 +400,41 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
 fn coefficient_lines(out: &mut String, indent: usize, value: &serde_json::Value) {
     use serde_json::Value;
     match value {
+        // The realization stage tags its coefficients with the structure's name, which the
+        // line above already gives.
+        Value::Object(fields) if fields.len() == 1 && fields.values().all(|v| v.is_object()) => {
+            if let Some(inner) = fields.values().next() {
+                coefficient_lines(out, indent, inner);
+            }
+        }
         Value::Object(fields) => {
             for (name, field) in fields {
                 match field {
+                    Value::Array(items)
+                        if !items.is_empty() && items.iter().all(|v| v.is_number()) =>
+                    {
+                        let numbers: Vec<f64> = items.iter().filter_map(|v| v.as_f64()).collect();
+                        coefficient_list(out, indent, "", name, &numbers);
+                    }
+                    // Second-order sections: rows of b0 b1 b2 a0 a1 a2.
+                    Value::Array(rows) if !rows.is_empty() && rows.iter().all(is_six_numbers) => {
+                        for (i, row) in rows.iter().enumerate() {
+                            let numbers: Vec<f64> = row
+                                .as_array()
+                                .map(|r| r.iter().filter_map(|v| v.as_f64()).collect())
+                                .unwrap_or_default();
+                            line(
+                                out,
+                                indent,
+                                &format!("section {}", i + 1),
+                                &format!(
+                                    "b = {}  a = {}",
+                                    list(&numbers[..3]),
+                                    list(&numbers[3..])
+                                ),
+                            );
+                        }
+                    }
                     Value::Object(_) => {
                         line(out, indent, name, "");
                         coefficient_lines(out, indent + 2, field);
@@ -353,6 +459,12 @@ fn coefficient_lines(out: &mut String, indent: usize, value: &serde_json::Value)
     }
 }
 
+fn is_six_numbers(value: &serde_json::Value) -> bool {
+    value
+        .as_array()
+        .is_some_and(|r| r.len() == 6 && r.iter().all(|v| v.is_number()))
+}
+
 fn scalar_or_list(value: &serde_json::Value) -> String {
     use serde_json::Value;
     match value {
@@ -372,7 +484,9 @@ fn scalar_or_list(value: &serde_json::Value) -> String {
 }
 
 fn line(out: &mut String, indent: usize, label: &str, value: &str) {
-    let width = LABEL.saturating_sub(indent).max(label.chars().count() + 1);
+    let width = VALUE_COLUMN
+        .saturating_sub(indent)
+        .max(label.chars().count() + 1);
     let text = format!("{:indent$}{label:<width$}{value}", "");
     let _ = writeln!(out, "{}", text.trim_end());
 }
