@@ -11,6 +11,7 @@
 //! the unit circle is refused, never run.
 
 mod coefficients;
+mod deflation;
 mod direct_form;
 mod error;
 mod lattice;
