@@ -70,7 +70,11 @@ fn polish(p: &[f64], start: Complex64) -> Complex64 {
         }
         let next = z - v / d;
         let (nv, nd) = value_and_slope(p, next);
-        if !(nv.norm() < v.norm()) || !next.re.is_finite() || !next.im.is_finite() {
+        if nv.norm() >= v.norm()
+            || nv.norm().is_nan()
+            || !next.re.is_finite()
+            || !next.im.is_finite()
+        {
             break;
         }
         z = next;

@@ -23,6 +23,8 @@ mod sections;
 #[cfg(test)]
 mod agreement_tests;
 #[cfg(test)]
+mod filter_tests;
+#[cfg(test)]
 mod quantization_tests;
 
 pub use coefficients::StructureCoefficients;
@@ -175,7 +177,7 @@ fn check_sections(sections: &[SectionCoefficients]) -> PoleCheck {
         if failing.is_none() && !check.stable() {
             failing = Some((i, check.clone()));
         }
-        if !(check.max_pole_radius <= worst.max_pole_radius) {
+        if check.max_pole_radius > worst.max_pole_radius || check.max_pole_radius.is_nan() {
             worst = check;
         }
     }
@@ -274,7 +276,7 @@ fn realize_lattice(
 fn lattice_check(k: &[f64]) -> PoleCheck {
     let failing_stage = k
         .iter()
-        .position(|x| !(x.abs() < 1.0))
+        .position(|x| x.abs() >= 1.0 || x.is_nan())
         .map(|i| (i + 1, k[i]));
     let (max_pole_radius, root_problem) = max_root_radius(&step_up(k));
     PoleCheck {

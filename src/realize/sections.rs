@@ -56,7 +56,7 @@ impl SectionCascade {
 
     /// Sum of the sections' orders (the highest power of z⁻¹ each one uses).
     pub fn order(&self) -> usize {
-        self.sections.iter().map(|c| section_order(c)).sum()
+        self.sections.iter().map(section_order).sum()
     }
 
     pub fn gain(&self) -> f64 {
