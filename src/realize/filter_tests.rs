@@ -200,3 +200,30 @@ fn refusal_after_rounding_explains_itself() {
         "{text}"
     );
 }
+
+// Source: IEEE 754 — the largest finite f32 is about 3.4e38 (common practice).
+#[test]
+fn coefficients_too_large_for_f32_are_refused() {
+    let h = TransferFunction::new(vec![1e39, 0.5e39], vec![1.0, -0.5]);
+    for structure in STRUCTURES {
+        match realize(&h, structure, CoefficientPrecision::F32) {
+            Err(RealizeError::CoefficientOverflow { value, .. }) => assert!(value >= 0.5e39),
+            other => panic!("{structure:?}: expected an overflow refusal, got {other:?}"),
+        }
+        assert!(realize(&h, structure, CoefficientPrecision::F64).is_ok());
+    }
+}
+
+// Source: common practice — a filter handed to the audio thread must be movable there.
+#[test]
+fn filter_is_clone_and_send() {
+    fn needs_clone_send<T: Clone + Send + 'static>(_: &T) {}
+    let r = realize(
+        &east_rack_inverse(),
+        Structure::Sections,
+        CoefficientPrecision::F32,
+    )
+    .unwrap();
+    needs_clone_send(&r.filter);
+    needs_clone_send(&r);
+}

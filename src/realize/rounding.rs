@@ -25,6 +25,19 @@ pub(crate) fn round_all(xs: &[f64], precision: CoefficientPrecision) -> Vec<f64>
     xs.iter().map(|&x| round(x, precision)).collect()
 }
 
+/// The first coefficient that is not finite once rounded (f32 overflows above about 3.4e38),
+/// as (its name, e.g. `b[3]`, and its value before rounding).
+pub(crate) fn first_unrepresentable(
+    name: &str,
+    original: &[f64],
+    precision: CoefficientPrecision,
+) -> Option<(String, f64)> {
+    original
+        .iter()
+        .position(|&x| !round(x, precision).is_finite())
+        .map(|i| (format!("{name}[{i}]"), original[i]))
+}
+
 /// What the two stability tests say about one denominator `1 + a₁z⁻¹ + …`.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct PoleCheck {
