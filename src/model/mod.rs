@@ -8,7 +8,7 @@ pub mod error;
 mod link;
 mod transfer;
 
-pub use error::ConfigError;
+pub use error::{ConfigError, ConfigErrorKind};
 pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
 pub use transfer::TransferFunction;
 
