@@ -105,6 +105,7 @@ pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError
         sample_rate: link.sample_rate,
         channel_count: link.channel_count,
         paths,
+        runtime: crate::model::RuntimeSettings::default(),
     })
 }
 

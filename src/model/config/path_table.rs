@@ -144,6 +144,7 @@ pub(crate) fn read_path<'a>(
             structure,
             precision: link.precision,
             circle_tolerance: link.circle_tolerance,
+            inverse: crate::model::InversePolicy::default(),
         },
         channel_nodes,
     })
