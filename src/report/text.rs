@@ -14,6 +14,13 @@ const ROOT_ROWS: usize = 12;
 /// Coefficient lists longer than this are written sparsely or wrapped.
 const SHORT_LIST: usize = 12;
 
+/// Long items are cut after this many entries in the text (the JSON carries them all): terms of
+/// a difference equation, sections, reflected zeros, rows of eight coefficients.
+const TERMS_SHOWN: usize = 12;
+const SECTIONS_SHOWN: usize = 12;
+const REFLECTED_SHOWN: usize = 6;
+const ROWS_SHOWN: usize = 8;
+
 pub fn render_text(report: &LinkReport) -> String {
     let mut out = String::new();
     match &report.source {
@@ -211,7 +218,16 @@ fn coefficient_list(out: &mut String, indent: usize, label: &str, name: &str, va
         label,
         &format!("{name} = {} coefficients:", values.len()),
     );
-    for (row, chunk) in values.chunks(8).enumerate() {
+    let rows = values.len().div_ceil(8);
+    if rows > ROWS_SHOWN {
+        line(
+            out,
+            indent,
+            "",
+            &format!("  (the first {}; all of them: --json)", ROWS_SHOWN * 8),
+        );
+    }
+    for (row, chunk) in values.chunks(8).enumerate().take(ROWS_SHOWN) {
         let items: Vec<String> = chunk.iter().map(|v| significant(*v)).collect();
         line(
             out,
@@ -233,7 +249,12 @@ fn short_margin(margin: f64) -> String {
 
 fn inverse_block(out: &mut String, inverse: &InverseEntry) {
     line(out, 2, "inverse", &inverse.method_name);
-    line(out, 4, "runs as", &inverse.difference_equation);
+    line(
+        out,
+        4,
+        "runs as",
+        &first_terms(&inverse.difference_equation),
+    );
     line(out, 4, "gain", &significant(inverse.gain));
     line(
         out,
@@ -281,7 +302,7 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
             &format!("{} dB", fixed(inverse.unity_scale_db, 2)),
         );
     }
-    for zero in &inverse.reflected_zeros {
+    for zero in inverse.reflected_zeros.iter().take(REFLECTED_SHOWN) {
         line(
             out,
             4,
@@ -290,6 +311,17 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
                 "{} (|z| = {}) moved to 1/conj(z)",
                 complex(zero.re, zero.im),
                 significant(zero.radius)
+            ),
+        );
+    }
+    if inverse.reflected_zeros.len() > REFLECTED_SHOWN {
+        line(
+            out,
+            4,
+            "",
+            &format!(
+                "… and {} more reflected zeros (all of them: --json)",
+                inverse.reflected_zeros.len() - REFLECTED_SHOWN
             ),
         );
     }
@@ -418,7 +450,7 @@ fn coefficient_lines(out: &mut String, indent: usize, value: &serde_json::Value)
                     }
                     // Second-order sections: rows of b0 b1 b2 a0 a1 a2.
                     Value::Array(rows) if !rows.is_empty() && rows.iter().all(is_six_numbers) => {
-                        for (i, row) in rows.iter().enumerate() {
+                        for (i, row) in rows.iter().enumerate().take(SECTIONS_SHOWN) {
                             let numbers: Vec<f64> = row
                                 .as_array()
                                 .map(|r| r.iter().filter_map(|v| v.as_f64()).collect())
@@ -432,6 +464,15 @@ fn coefficient_lines(out: &mut String, indent: usize, value: &serde_json::Value)
                                     list(&numbers[..3]),
                                     list(&numbers[3..])
                                 ),
+                            );
+                        }
+                        if rows.len() > SECTIONS_SHOWN {
+                            let more = rows.len() - SECTIONS_SHOWN;
+                            line(
+                                out,
+                                indent,
+                                "",
+                                &format!("… and {more} more sections (all of them: --json)"),
                             );
                         }
                     }
@@ -483,10 +524,33 @@ fn scalar_or_list(value: &serde_json::Value) -> String {
     }
 }
 
+/// The difference equation up to its [`TERMS_SHOWN`]th term.
+fn first_terms(equation: &str) -> String {
+    let mut terms = 0;
+    for (at, _) in equation.match_indices(['+', '−']) {
+        // A sign between terms stands between spaces; a leading sign does not.
+        let spaced = equation[..at].ends_with(' ') && equation[at..].chars().nth(1) == Some(' ');
+        if spaced {
+            terms += 1;
+            if terms == TERMS_SHOWN {
+                let total = equation.matches("x[").count() + equation.matches("y[").count() - 1;
+                return format!(
+                    "{}… ({} terms in all; every coefficient: --json)",
+                    &equation[..at],
+                    total
+                );
+            }
+        }
+    }
+    equation.to_string()
+}
+
+/// One "label   value" line; continuation lines of a multi-line value are aligned under it.
 fn line(out: &mut String, indent: usize, label: &str, value: &str) {
     let width = VALUE_COLUMN
         .saturating_sub(indent)
         .max(label.chars().count() + 1);
-    let text = format!("{:indent$}{label:<width$}{value}", "");
+    let aligned = value.replace('\n', &format!("\n{:w$}", "", w = indent + width));
+    let text = format!("{:indent$}{label:<width$}{aligned}", "");
     let _ = writeln!(out, "{}", text.trim_end());
 }
