@@ -1,1 +1,298 @@
-fn main() {}
+//! The `redress` command: parses arguments, calls the library, prints. No signal processing here.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+use redress::io::{self, FileRunOptions, FileRunSummary, ProgrammeSpec};
+use redress::model::config::{load_link, parse_link};
+use redress::model::Link;
+use redress::pipeline::{plan_link, LinkPlan};
+use redress::report::{link_report, render_json, render_text};
+
+/// Exit codes, as documented in `--help` and the README.
+mod exit {
+    /// The command did what was asked.
+    pub const OK: u8 = 0;
+    /// Something outside the config went wrong: a file could not be read or written, a WAV
+    /// file was unusable, a comparison could not be made.
+    pub const FAILED: u8 = 1;
+    /// The config is invalid (or the arguments are: clap uses 2 for those too).
+    pub const INVALID_CONFIG: u8 = 2;
+    /// The config is valid, but some path has no runnable inverse (no stable causal inverse and
+    /// no substitute allowed, or refused at design or realization).
+    pub const NOT_RUNNABLE: u8 = 3;
+}
+
+const EXIT_CODES: &str = "\
+Exit codes:
+  0  done (for `check`: every path has an inverse ready to run)
+  1  a file could not be read or written, or a WAV file was unusable
+  2  the config (or the command line) is invalid
+  3  the config is valid but some path has no runnable inverse";
+
+/// The demo's link when no config is named: a line with one echo, built into the binary so the
+/// demo needs no files.
+const DEMO_CONFIG_NAME: &str = "configs/echo_line.toml";
+const DEMO_CONFIG: &str = include_str!("../configs/echo_line.toml");
+
+/// Derive, check and run stable causal inverse filters for measured audio links.
+#[derive(Parser)]
+#[command(name = "redress", version, about, after_help = EXIT_CODES)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Analyse every path of a link config: zeros, poles, verdict, inverse, realization.
+    #[command(after_help = EXIT_CODES)]
+    Check {
+        /// The link config (TOML).
+        config: PathBuf,
+        /// Print the report as JSON (schema in the README) instead of text.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Equalize a WAV file with the link's inverse, block by block.
+    #[command(after_help = EXIT_CODES)]
+    Apply {
+        config: PathBuf,
+        /// Input WAV: 16/24/32-bit integer or 32-bit float, the link's channel count and rate.
+        input: PathBuf,
+        /// Output WAV: 32-bit float unless --keep-format.
+        output: PathBuf,
+        /// Write the input's own sample format (integer output is rounded and clamped).
+        #[arg(long)]
+        keep_format: bool,
+        /// Frames per processing block.
+        #[arg(long, default_value_t = io::DEFAULT_BLOCK_FRAMES as u32,
+              value_parser = clap::value_parser!(u32).range(1..=1_048_576))]
+        block: u32,
+    },
+    /// Run a WAV file through the link itself (the simulated channel), to make test material.
+    #[command(after_help = EXIT_CODES)]
+    Distort {
+        config: PathBuf,
+        input: PathBuf,
+        output: PathBuf,
+        /// Write the input's own sample format (integer output is rounded and clamped).
+        #[arg(long)]
+        keep_format: bool,
+    },
+    /// Error of TEST against REF in dB: 10·log10(Σ(test − ref delayed)² / Σ ref delayed²).
+    #[command(after_help = EXIT_CODES)]
+    Compare {
+        /// The reference (e.g. the original programme).
+        reference: PathBuf,
+        /// The signal to judge (e.g. the equalized output).
+        test: PathBuf,
+        /// Delay the reference by this many frames first (the link's bulk delay).
+        #[arg(long, default_value_t = 0)]
+        delay: usize,
+        /// Leave out this many frames at the start.
+        #[arg(long, default_value_t = 0)]
+        skip: usize,
+    },
+    /// Generate programme material, pass it through the simulated link, equalize it, and print
+    /// the error before and after. Needs no sound card and no files.
+    #[command(after_help = EXIT_CODES)]
+    Demo {
+        /// The link config (default: the built-in configs/echo_line.toml).
+        config: Option<PathBuf>,
+        /// Length of the generated material in seconds.
+        #[arg(long, default_value_t = 5.0)]
+        seconds: f64,
+    },
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let code = match cli.command {
+        Command::Check { config, json } => check(&config, json),
+        Command::Apply {
+            config,
+            input,
+            output,
+            keep_format,
+            block,
+        } => apply(
+            &config,
+            &input,
+            &output,
+            FileRunOptions {
+                block_frames: block as usize,
+                keep_format,
+            },
+        ),
+        Command::Distort {
+            config,
+            input,
+            output,
+            keep_format,
+        } => distort(
+            &config,
+            &input,
+            &output,
+            FileRunOptions {
+                keep_format,
+                ..FileRunOptions::default()
+            },
+        ),
+        Command::Compare {
+            reference,
+            test,
+            delay,
+            skip,
+        } => compare(&reference, &test, delay, skip),
+        Command::Demo { config, seconds } => demo(config.as_deref(), seconds),
+    };
+    ExitCode::from(code)
+}
+
+/// Reads the config, or says why not.
+fn load(config: &Path) -> Result<Link, u8> {
+    load_link(config).map_err(|e| {
+        eprintln!("error: {e}");
+        exit::INVALID_CONFIG
+    })
+}
+
+fn check(config: &Path, json: bool) -> u8 {
+    let link = match load(config) {
+        Ok(link) => link,
+        Err(code) => return code,
+    };
+    let plan = plan_link(&link);
+    let report = link_report(&plan, link.source.as_deref());
+    if json {
+        println!("{}", render_json(&report));
+    } else {
+        print!("{}", render_text(&report));
+    }
+    if plan.is_runnable() {
+        exit::OK
+    } else {
+        exit::NOT_RUNNABLE
+    }
+}
+
+fn apply(config: &Path, input: &Path, output: &Path, options: FileRunOptions) -> u8 {
+    let link = match load(config) {
+        Ok(link) => link,
+        Err(code) => return code,
+    };
+    let plan = plan_link(&link);
+    let result = io::apply_file(&plan, input, output, options, &mut print_progress);
+    finish_run("equalized", input, output, result)
+}
+
+fn distort(config: &Path, input: &Path, output: &Path, options: FileRunOptions) -> u8 {
+    let link = match load(config) {
+        Ok(link) => link,
+        Err(code) => return code,
+    };
+    let result = io::distort_file(&link, input, output, options, &mut print_progress);
+    finish_run("distorted", input, output, result)
+}
+
+fn print_progress(percent: u32) {
+    eprintln!("  {percent:>3} %");
+}
+
+fn finish_run(
+    done: &str,
+    input: &Path,
+    output: &Path,
+    result: Result<FileRunSummary, io::OfflineError>,
+) -> u8 {
+    match result {
+        Ok(summary) => {
+            println!(
+                "{done} {} → {}: {} frames ({}) written as {}",
+                input.display(),
+                output.display(),
+                summary.frames,
+                summary.input_format.describe(),
+                summary.output_format.describe()
+            );
+            println!(
+                "clipped samples: {} (at or beyond full scale{})",
+                summary.clipped_samples,
+                match summary.output_format.encoding {
+                    io::SampleEncoding::Int => ", clamped",
+                    io::SampleEncoding::Float => ", kept in the float file",
+                }
+            );
+            exit::OK
+        }
+        Err(e @ io::OfflineError::NotRunnable { .. }) => {
+            eprintln!("error: {e}");
+            exit::NOT_RUNNABLE
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::FAILED
+        }
+    }
+}
+
+fn compare(reference: &Path, test: &Path, delay: usize, skip: usize) -> u8 {
+    match io::compare_files(test, reference, delay, skip) {
+        Ok(measure) => {
+            println!(
+                "error of {} against {} (delayed {delay}, first {skip} skipped): {}",
+                test.display(),
+                reference.display(),
+                io::format_db(measure.db)
+            );
+            println!("frames compared: {}", measure.frames);
+            exit::OK
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::FAILED
+        }
+    }
+}
+
+fn demo(config: Option<&Path>, seconds: f64) -> u8 {
+    let link = match config {
+        Some(path) => match load(path) {
+            Ok(link) => link,
+            Err(code) => return code,
+        },
+        None => match parse_link(DEMO_CONFIG, Some(Path::new(DEMO_CONFIG_NAME))) {
+            Ok(link) => link,
+            Err(e) => {
+                eprintln!("error: the built-in demo config is invalid: {e}");
+                return exit::FAILED;
+            }
+        },
+    };
+    if !(seconds.is_finite() && (0.1..=600.0).contains(&seconds)) {
+        eprintln!("error: --seconds {seconds}: give a length from 0.1 to 600 seconds");
+        return exit::INVALID_CONFIG;
+    }
+    let plan: LinkPlan = plan_link(&link);
+    let report = link_report(&plan, link.source.as_deref());
+    print!("{}", render_text(&report));
+    println!();
+    let spec = ProgrammeSpec::new(link.sample_rate, link.channel_count, seconds, 1);
+    match io::run_demo(&link, &plan, &spec) {
+        Ok(outcome) => {
+            print!("{}", outcome.describe());
+            exit::OK
+        }
+        Err(e @ io::OfflineError::NotRunnable { .. }) => {
+            eprintln!("error: {e}");
+            exit::NOT_RUNNABLE
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::FAILED
+        }
+    }
+}
