@@ -199,7 +199,7 @@ fn distort(config: &Path, input: &Path, output: &Path, options: FileRunOptions) 
 }
 
 fn print_progress(percent: u32) {
-    eprintln!("  {percent:>3} %");
+    eprintln!("progress: {percent:>3} %");
 }
 
 fn finish_run(
