@@ -117,6 +117,7 @@ mod tests {
                     inverse: InversePolicy::default(),
                 })
                 .collect(),
+            runtime: Default::default(),
         }
     }
 
