@@ -9,7 +9,7 @@
 //! so kₘ is the last coefficient of Aₘ.
 
 /// Outcome of the step-down recursion.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct StepDown {
     /// k₁ … kₙ in order of stage (index 0 holds k₁). Complete only when `stopped_at` is `None`.
     pub reflection: Vec<f64>,
