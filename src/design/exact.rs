@@ -42,6 +42,7 @@ pub fn design_exact(
     let decay = decay_60db_samples(largest_pole, inverse.b.len().max(inverse.a.len()));
     Ok(InverseDesign {
         method: DesignMethod::Exact,
+        sample_rate,
         gain: inverse.b[0],
         inverse,
         residual_delay_samples: analysis.bulk_delay,
@@ -49,6 +50,11 @@ pub fn design_exact(
         peak_boost_db: peak.level_db,
         peak_boost_hz: peak.omega * sample_rate / (2.0 * std::f64::consts::PI),
         decay_60db_seconds: decay / sample_rate,
+        reflected_zeros: Vec::new(),
+        all_pass: None,
+        boost_cap: None,
+        fir: None,
+        unity_scale_db: 0.0,
     })
 }
 

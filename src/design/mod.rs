@@ -1,19 +1,28 @@
 //! Design: the inverse filter for a channel, with a report of what it does.
 //!
-//! Only the exact inverse lives here so far: G(z) = A(z)/B′(z), where B′ is B with its bulk
-//! delay (leading zero taps) stripped. The cascade H·G is then a pure delay of that many samples:
-//! a causal filter cannot advance time, so the delay is reported, not undone.
+//! The exact inverse is G(z) = A(z)/B′(z), where B′ is B with its bulk delay (leading zero taps)
+//! stripped. The cascade H·G is then a pure delay of that many samples: a causal filter cannot
+//! advance time, so the delay is reported, not undone. When no exact inverse exists, or it would
+//! boost more than the cap, the policy picks a substitute and the design says what it costs.
 
+mod boost_cap;
 mod decay;
 mod exact;
+mod least_squares_fir;
+mod minimum_phase;
+mod substitute;
 
 use serde::Serialize;
 
 use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
+pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
+pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
+pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
+pub use substitute::design_inverse;
 
 /// How an inverse was obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -21,12 +30,60 @@ pub use exact::design_exact;
 pub enum DesignMethod {
     /// 1/H after stripping the bulk delay: magnitude and phase fully corrected.
     Exact,
+    /// Zeros outside the circle reflected and/or zeros near it pulled in: magnitude corrected
+    /// (up to the cap), phase of the reflected zeros left as an all-pass.
+    MinimumPhase,
+    /// Delayed least-squares FIR: magnitude and phase corrected approximately, at a latency.
+    LeastSquaresFir,
+}
+
+impl DesignMethod {
+    pub fn name(self) -> &'static str {
+        match self {
+            DesignMethod::Exact => "exact inverse",
+            DesignMethod::MinimumPhase => "minimum-phase substitute",
+            DesignMethod::LeastSquaresFir => "delayed least-squares FIR inverse",
+        }
+    }
+}
+
+/// What the boost cap changed.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BoostCapReport {
+    pub cap_db: f64,
+    /// Radius the outermost zeros were pulled in to, when any moved.
+    pub radius_limit: Option<f64>,
+    pub moved_zeros: Vec<MovedZero>,
+    /// Broadband level reduction (dB) when moving zeros was not enough.
+    pub level_reduction_db: f64,
+    /// Peak the inverse would have had without the cap (dB; +∞ for a zero on the circle).
+    pub peak_before_db: f64,
+    /// 60 dB decay time the inverse would have had without the cap (s; +∞ on the circle).
+    pub decay_60db_before_seconds: f64,
+}
+
+/// How the least-squares FIR inverse came out.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FirReport {
+    pub taps: usize,
+    pub delay_samples: usize,
+    pub delay_ms: f64,
+    /// True when the delay was searched within the latency budget rather than given.
+    pub delay_searched: bool,
+    pub regularization: f64,
+    /// True when the regularisation was raised above the configured one to respect the cap.
+    pub regularization_raised_for_cap: bool,
+    pub level_reduction_db: f64,
+    /// ‖h∗g − δ(n−D)‖² in dB.
+    pub residual_error_db: f64,
 }
 
 /// An inverse filter and the figures a user needs to trust it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct InverseDesign {
     pub method: DesignMethod,
+    /// Sample rate the design's times and frequencies refer to (Hz).
+    pub sample_rate: f64,
     /// G(z), scaled so that `inverse.a[0] == 1`.
     pub inverse: TransferFunction,
     /// Leading coefficient of G's numerator: a₀/b′₀.
@@ -41,6 +98,80 @@ pub struct InverseDesign {
     pub peak_boost_hz: f64,
     /// Time for the inverse's impulse response envelope to fall by 60 dB, in seconds.
     pub decay_60db_seconds: f64,
+    /// Channel zeros outside the circle that were reflected to 1/conj(z) (as they were).
+    pub reflected_zeros: Vec<crate::analysis::PlacedRoot>,
+    /// The uncorrected all-pass left by reflection, when zeros were reflected.
+    pub all_pass: Option<AllPassResidual>,
+    /// What the boost cap changed, when it acted.
+    pub boost_cap: Option<BoostCapReport>,
+    /// Details of a least-squares FIR inverse.
+    pub fir: Option<FirReport>,
+    /// Gain applied to hold the cascade at 0 dB at the configured frequency (dB; 0 when none).
+    pub unity_scale_db: f64,
+}
+
+impl InverseDesign {
+    /// One line: what the user gives up with this design.
+    pub fn gives_up(&self) -> String {
+        let mut parts = Vec::new();
+        if self.residual_delay_samples > 0 {
+            parts.push(format!(
+                "the link's own delay of {} sample(s) remains (no causal filter can advance time)",
+                self.residual_delay_samples
+            ));
+        }
+        if let Some(ap) = &self.all_pass {
+            parts.push(format!(
+                "phase of {} zero(s) outside the circle: an all-pass with {:.3}–{:.3} ms group delay stays uncorrected",
+                self.reflected_zeros.len(),
+                ap.group_delay_min_ms,
+                ap.group_delay_max_ms
+            ));
+        }
+        if let Some(cap) = &self.boost_cap {
+            if !cap.moved_zeros.is_empty() {
+                parts.push(format!(
+                    "depth of {} zero(s) on or near the circle: boost capped at {:.1} dB (uncapped {})",
+                    cap.moved_zeros.len(),
+                    cap.cap_db,
+                    db_text(cap.peak_before_db)
+                ));
+            }
+            if cap.level_reduction_db > 0.0 {
+                parts.push(format!(
+                    "overall level: {:.1} dB below unity to respect the {:.1} dB cap",
+                    cap.level_reduction_db, cap.cap_db
+                ));
+            }
+        }
+        if let Some(fir) = &self.fir {
+            parts.push(format!(
+                "latency: {} sample(s) ({:.3} ms) added; residual error {:.1} dB",
+                self.added_latency_samples,
+                1000.0 * self.added_latency_samples as f64 / self.sample_rate,
+                fir.residual_error_db
+            ));
+            if fir.level_reduction_db > 0.0 {
+                parts.push(format!(
+                    "overall level: {:.1} dB below unity to respect the boost cap",
+                    fir.level_reduction_db
+                ));
+            }
+        }
+        if parts.is_empty() {
+            "nothing: magnitude and phase fully corrected".to_string()
+        } else {
+            parts.join("; ")
+        }
+    }
+}
+
+fn db_text(db: f64) -> String {
+    if db.is_finite() {
+        format!("{db:.1} dB")
+    } else {
+        "unbounded".to_string()
+    }
 }
 
 /// Why no inverse was designed.
@@ -54,6 +185,12 @@ pub enum DesignError {
         on_circle: Vec<PlacedRoot>,
         outside: Vec<PlacedRoot>,
     },
+    /// The exact inverse exceeds the boost cap and the policy forbids substitutes.
+    OverBoostCap { peak_db: f64, cap_db: f64 },
+    /// A numerical step failed (should not happen for valid input; reported, never a panic).
+    Numerical { what: &'static str },
+    /// The cascade is zero at the frequency where unity was asked for.
+    NoUnityAt { hz: f64 },
 }
 
 impl std::fmt::Display for DesignError {
@@ -71,9 +208,21 @@ impl std::fmt::Display for DesignError {
             }
             DesignError::NoStableInverse { on_circle, outside } => write!(
                 f,
-                "no stable, causal inverse exists: {} zero(s) on the unit circle and {} outside it",
+                "no stable, causal inverse exists: {} zero(s) on the unit circle and {} outside it; \
+                 choose method = \"minimum_phase\" or \"least_squares_fir\" under [path.inverse]",
                 on_circle.len(),
                 outside.len()
+            ),
+            DesignError::OverBoostCap { peak_db, cap_db } => write!(
+                f,
+                "the exact inverse would boost {peak_db:.1} dB, over the {cap_db:.1} dB cap; \
+                 choose method = \"minimum_phase\" to cap it, or raise boost_cap_db knowingly"
+            ),
+            DesignError::Numerical { what } => write!(f, "numerical failure: {what}"),
+            DesignError::NoUnityAt { hz } => write!(
+                f,
+                "the cascade has no gain at {hz} Hz (a zero on the circle), so it cannot be held \
+                 at 0 dB there; choose another unity_at_hz"
             ),
         }
     }

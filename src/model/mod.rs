@@ -6,10 +6,15 @@
 pub mod config;
 pub mod error;
 mod link;
+mod policy;
 mod transfer;
 
 pub use error::ConfigError;
 pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
+pub use policy::{
+    FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,
+    DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, MAX_FIR_TAPS,
+};
 pub use transfer::TransferFunction;
 
 /// Most coefficients a numerator or denominator may have (order + 1). Root finding is O(n³) and

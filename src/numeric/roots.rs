@@ -156,7 +156,7 @@ fn newton_polish(c: &[f64], start: Complex64) -> Complex64 {
         }
         let candidate = z - p / dp;
         let (pc, dpc) = value_and_slope(c, candidate);
-        if !(pc.norm() < p.norm()) {
+        if pc.norm().partial_cmp(&p.norm()) != Some(std::cmp::Ordering::Less) {
             break;
         }
         z = candidate;

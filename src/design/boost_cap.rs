@@ -1,0 +1,147 @@
+//! Boost cap: keep the inverse's peak gain under a limit by pulling zeros towards the origin.
+//!
+//! A zero of the channel at radius r becomes a pole of the inverse; near the circle its boost
+//! grows like 1/(1 − r). For a conjugate pair at radius r and angle ω₀ the boost at ω₀ is
+//!   1/|(1 − r·e^{jω₀}e^{−jω₀})(1 − r·e^{−jω₀}e^{−jω₀})| = 1/((1 − r)·|1 − r·e^{−j2ω₀}|),
+//! i.e. −20·log10((1 − r)·|1 − r·e^{−j2ω₀}|) dB (common practice). Shrinking r lowers it.
+//!
+//! We clamp every zero beyond a radius ρ to radius ρ (same angle; conjugate pairs stay pairs)
+//! and search the largest ρ whose inverse respects the cap: only the zeros nearest the circle
+//! move, and only as far as they must. Zeros are never pulled below radius [`RADIUS_FLOOR`];
+//! if the cap still fails there, the boost is broadband (a lossy link), and the level is
+//! lowered instead — reported as a level reduction.
+
+use num_complex::Complex64;
+use serde::Serialize;
+
+use crate::numeric::poly::from_roots;
+use crate::numeric::response::{peak_magnitude, Peak};
+
+/// Zeros are not pulled in further than this radius by the cap.
+pub const RADIUS_FLOOR: f64 = 0.5;
+
+/// One zero moved by the cap.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct MovedZero {
+    pub from: Complex64,
+    pub to: Complex64,
+}
+
+/// The capped numerator and what was done to get it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Capped {
+    /// New B (leading coefficient included); the inverse is A/B.
+    pub numerator: Vec<f64>,
+    /// The radius zeros were clamped to, when any moved.
+    pub radius_limit: Option<f64>,
+    pub moved: Vec<MovedZero>,
+    /// By how much the overall level was lowered (dB ≥ 0) because moving zeros was not enough.
+    pub level_reduction_db: f64,
+    /// Peak of the capped inverse A/B.
+    pub peak: Peak,
+}
+
+/// Caps the peak of A/B, where B = `gain`·Π(1 − zₖz⁻¹), at `cap_db`.
+///
+/// Returns `None` only if the zeros do not form real coefficients (they always do when they are
+/// the roots of a real polynomial, reflected or not).
+pub fn cap_boost(a: &[f64], gain: f64, zeros: &[Complex64], cap_db: f64) -> Option<Capped> {
+    let largest = zeros.iter().map(|z| z.norm()).fold(0.0, f64::max);
+    let peak_with = |rho: f64, g: f64| -> Option<(Vec<f64>, Peak)> {
+        let b = from_roots(g, &clamp(zeros, rho))?;
+        let peak = peak_magnitude(a, &b);
+        Some((b, peak))
+    };
+    let (b, peak) = peak_with(largest, gain)?;
+    if peak.level_db <= cap_db {
+        return Some(Capped {
+            numerator: b,
+            radius_limit: None,
+            moved: Vec::new(),
+            level_reduction_db: 0.0,
+            peak,
+        });
+    }
+    // Broadband excess (still over the cap with every zero at the floor): lower the level.
+    let floor = RADIUS_FLOOR.min(largest);
+    let (_, floor_peak) = peak_with(floor, gain)?;
+    let level_reduction_db = (floor_peak.level_db - cap_db).max(0.0);
+    // Raising B's gain by the reduction lowers the inverse's level by as much.
+    let gain = gain * 10f64.powf(level_reduction_db / 20.0);
+
+    // Largest ρ in [floor, largest] with peak ≤ cap (bisection; the peak grows with ρ).
+    let (mut lo, mut hi) = (floor, largest);
+    for _ in 0..64 {
+        let mid = 0.5 * (lo + hi);
+        let (_, p) = peak_with(mid, gain)?;
+        if p.level_db <= cap_db {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+        if hi - lo <= 1e-13 {
+            break;
+        }
+    }
+    let (numerator, peak) = peak_with(lo, gain)?;
+    let moved = zeros
+        .iter()
+        .zip(clamp(zeros, lo))
+        .filter(|(from, to)| *from != to)
+        .map(|(&from, to)| MovedZero { from, to })
+        .collect();
+    Some(Capped {
+        numerator,
+        radius_limit: Some(lo),
+        moved,
+        level_reduction_db,
+        peak,
+    })
+}
+
+fn clamp(zeros: &[Complex64], rho: f64) -> Vec<Complex64> {
+    zeros
+        .iter()
+        .map(|&z| {
+            if z.norm() > rho {
+                Complex64::from_polar(rho, z.arg())
+            } else {
+                z
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Closed form from the module comment: boost of 1/B at ω₀ for a conjugate pair (r, ω₀).
+    fn pair_boost_db(r: f64, w0: f64) -> f64 {
+        let e = Complex64::from_polar(1.0, -2.0 * w0);
+        -20.0 * ((1.0 - r) * (Complex64::new(1.0, 0.0) - e * r).norm()).log10()
+    }
+
+    // Source: closed form for a conjugate zero pair (common practice, derived above).
+    #[test]
+    fn capped_pair_matches_closed_form() {
+        let w0 = 0.9;
+        let r = 0.9995;
+        let zeros = [Complex64::from_polar(r, w0), Complex64::from_polar(r, -w0)];
+        let capped = cap_boost(&[1.0], 1.0, &zeros, 20.0).unwrap();
+        let rho = capped.radius_limit.unwrap();
+        assert!(rho < r);
+        assert!(capped.peak.level_db <= 20.0 + 1e-9);
+        assert!((capped.peak.level_db - 20.0).abs() < 0.01);
+        assert!((capped.peak.level_db - pair_boost_db(rho, w0)).abs() < 0.01);
+        assert_eq!(capped.level_reduction_db, 0.0);
+    }
+
+    // Source: common practice — a flat loss of 30 dB needs a 30 dB boost; only the level helps.
+    #[test]
+    fn broadband_loss_lowers_level() {
+        let capped = cap_boost(&[1.0], 10f64.powf(-30.0 / 20.0), &[], 20.0).unwrap();
+        assert!((capped.level_reduction_db - 10.0).abs() < 1e-9);
+        assert!((capped.peak.level_db - 20.0).abs() < 1e-9);
+    }
+}
