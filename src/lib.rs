@@ -12,5 +12,6 @@ pub mod engine;
 pub mod io;
 pub mod model;
 pub mod numeric;
+pub mod pipeline;
 pub mod realize;
 pub mod report;

@@ -2,7 +2,7 @@ use std::path::PathBuf;
 
 use serde::Serialize;
 
-use super::TransferFunction;
+use super::{InversePolicy, TransferFunction};
 
 /// How the user described a path's channel in the config (kept for reports).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -19,6 +19,7 @@ pub enum ModelForm {
 #[serde(rename_all = "snake_case")]
 pub enum Structure {
     /// Direct form II transposed, one section of the full order.
+    #[serde(rename = "direct_form_2t")]
     DirectForm2T,
     /// Cascade of second-order sections.
     Sections,
@@ -61,6 +62,8 @@ pub struct Path {
     pub precision: CoefficientPrecision,
     /// A zero or pole with | |z| − 1 | below this radius tolerance counts as on the circle.
     pub circle_tolerance: f64,
+    /// How the inverse is built and the limits it must respect.
+    pub inverse: InversePolicy,
 }
 
 /// A whole link: sample rate, channel count and a model for every channel.

@@ -1,1 +1,298 @@
-//! (being written)
+//! Realize: turn a transfer function H(z) = B(z)/A(z) (normally an inverse design) into a filter
+//! that runs sample by sample, in one of three structures, with its coefficients rounded to the
+//! run precision and its poles checked on the rounded coefficients.
+//!
+//! - direct form II transposed ([`DirectForm2T`]): one difference equation of the full order;
+//! - second-order sections ([`SectionCascade`]): poles and zeros paired into real quadratics;
+//! - lattice–ladder ([`LatticeLadder`]): reflection coefficients and ladder taps.
+//!
+//! All three compute the same H(z); they differ in how far rounding moves the poles. The filter
+//! state is always f64. A realization whose rounded coefficients would put a pole on or outside
+//! the unit circle is refused, never run.
+
+mod coefficients;
+mod direct_form;
+mod error;
+mod lattice;
+mod normalise;
+mod pairing;
+mod rounding;
+mod sections;
+
+#[cfg(test)]
+mod agreement_tests;
+#[cfg(test)]
+mod quantization_tests;
+
+pub use coefficients::StructureCoefficients;
+pub use direct_form::DirectForm2T;
+pub use error::RealizeError;
+pub use lattice::LatticeLadder;
+pub use sections::{SectionCascade, SectionCoefficients};
+
+use crate::model::{CoefficientPrecision, Structure, TransferFunction};
+use crate::numeric::stepdown::step_up;
+
+use normalise::{normalise, Normalised};
+use rounding::{check_denominator, max_root_radius, round, round_all, PoleCheck};
+
+/// A filter ready to run, with the coefficients it runs and the largest pole radius they give.
+#[derive(Debug, Clone)]
+pub struct Realization {
+    pub structure: Structure,
+    pub precision: CoefficientPrecision,
+    /// The coefficients exactly as the filter holds them (after rounding).
+    pub coefficients: StructureCoefficients,
+    /// Largest pole radius of the structure as it will run (after rounding).
+    pub max_pole_radius: f64,
+    pub filter: Filter,
+}
+
+/// A running filter in one of the three structures. Processing allocates nothing and never
+/// panics; NaN in gives NaN out (clearing it takes [`Filter::reset`]).
+#[derive(Debug, Clone)]
+pub enum Filter {
+    DirectForm2T(DirectForm2T),
+    Sections(SectionCascade),
+    LatticeLadder(LatticeLadder),
+}
+
+impl Filter {
+    pub fn process_sample(&mut self, x: f64) -> f64 {
+        match self {
+            Filter::DirectForm2T(f) => f.process_sample(x),
+            Filter::Sections(f) => f.process_sample(x),
+            Filter::LatticeLadder(f) => f.process_sample(x),
+        }
+    }
+
+    /// Filters `input` into `output` (f32 samples, f64 arithmetic and state), carrying state
+    /// from call to call. Processes `min(input.len(), output.len())` samples; the rest of a
+    /// longer `output` is left as it was.
+    pub fn process_block(&mut self, input: &[f32], output: &mut [f32]) {
+        fn run(step: &mut impl FnMut(f64) -> f64, input: &[f32], output: &mut [f32]) {
+            for (x, y) in input.iter().zip(output.iter_mut()) {
+                *y = step(f64::from(*x)) as f32;
+            }
+        }
+        match self {
+            Filter::DirectForm2T(f) => run(&mut |x| f.process_sample(x), input, output),
+            Filter::Sections(f) => run(&mut |x| f.process_sample(x), input, output),
+            Filter::LatticeLadder(f) => run(&mut |x| f.process_sample(x), input, output),
+        }
+    }
+
+    /// Clears the state: the next output is as if the filter had only ever seen zeros.
+    pub fn reset(&mut self) {
+        match self {
+            Filter::DirectForm2T(f) => f.reset(),
+            Filter::Sections(f) => f.reset(),
+            Filter::LatticeLadder(f) => f.reset(),
+        }
+    }
+
+    /// Number of delay elements that carry signal (the order of the difference equations run).
+    pub fn order(&self) -> usize {
+        match self {
+            Filter::DirectForm2T(f) => f.order(),
+            Filter::Sections(f) => f.order(),
+            Filter::LatticeLadder(f) => f.order(),
+        }
+    }
+}
+
+/// Realizes `inverse` in `structure` with coefficients rounded to `precision`.
+///
+/// `inverse` may be any B(z)/A(z) with finite coefficients and a[0] ≠ 0 (it is normalised to
+/// a[0] = 1; b and a may differ in length). Refuses, saying why and what to do, when the design
+/// is unstable, when the structure cannot be formed, or when rounding would make it unstable.
+pub fn realize(
+    inverse: &TransferFunction,
+    structure: Structure,
+    precision: CoefficientPrecision,
+) -> Result<Realization, RealizeError> {
+    let h = normalise(inverse)?;
+    match structure {
+        Structure::DirectForm2T => realize_direct_form(&h, precision),
+        Structure::Sections => realize_sections(&h, precision),
+        Structure::LatticeLadder => realize_lattice(&h, precision),
+    }
+}
+
+fn unstable_design(structure: Structure, check: &PoleCheck) -> RealizeError {
+    RealizeError::UnstableDesign {
+        structure,
+        max_pole_radius: check.max_pole_radius,
+        detail: check.detail(),
+    }
+}
+
+fn unstable_after_rounding(structure: Structure, check: &PoleCheck) -> RealizeError {
+    RealizeError::UnstableAfterRounding {
+        structure,
+        max_pole_radius: check.max_pole_radius,
+        detail: check.detail(),
+    }
+}
+
+fn realize_direct_form(
+    h: &Normalised,
+    precision: CoefficientPrecision,
+) -> Result<Realization, RealizeError> {
+    let structure = Structure::DirectForm2T;
+    let design = check_denominator(&h.a);
+    if !design.stable() {
+        return Err(unstable_design(structure, &design));
+    }
+    let (b, a) = h.padded();
+    let (b, a) = (round_all(&b, precision), round_all(&a, precision));
+    let running = match precision {
+        CoefficientPrecision::F64 => design,
+        CoefficientPrecision::F32 => check_denominator(&a),
+    };
+    if !running.stable() {
+        return Err(unstable_after_rounding(structure, &running));
+    }
+    Ok(Realization {
+        structure,
+        precision,
+        coefficients: StructureCoefficients::DirectForm2T {
+            b: b.clone(),
+            a: a.clone(),
+        },
+        max_pole_radius: running.max_pole_radius,
+        filter: Filter::DirectForm2T(DirectForm2T::new(b, a)),
+    })
+}
+
+/// The worst of the sections' denominators: largest radius, first failing section named.
+fn check_sections(sections: &[SectionCoefficients]) -> PoleCheck {
+    let mut worst = check_denominator(&[1.0]);
+    let mut failing: Option<(usize, PoleCheck)> = None;
+    for (i, c) in sections.iter().enumerate() {
+        let check = check_denominator(&c[3..6]);
+        if failing.is_none() && !check.stable() {
+            failing = Some((i, check.clone()));
+        }
+        if !(check.max_pole_radius <= worst.max_pole_radius) {
+            worst = check;
+        }
+    }
+    match failing {
+        Some((i, check)) => PoleCheck {
+            root_problem: Some(format!(
+                "section {} of {} has denominator [{}, {}, {}]{}",
+                i + 1,
+                sections.len(),
+                sections[i][3],
+                sections[i][4],
+                sections[i][5],
+                check
+                    .root_problem
+                    .as_deref()
+                    .map(|p| format!(": {p}"))
+                    .unwrap_or_default()
+            )),
+            max_pole_radius: worst.max_pole_radius,
+            failing_stage: check.failing_stage,
+        },
+        None => worst,
+    }
+}
+
+fn realize_sections(
+    h: &Normalised,
+    precision: CoefficientPrecision,
+) -> Result<Realization, RealizeError> {
+    let structure = Structure::Sections;
+    let (gain, sections) = sections::factor(h)?;
+    let design = check_sections(&sections);
+    if !design.stable() {
+        return Err(unstable_design(structure, &design));
+    }
+    let gain = round(gain, precision);
+    let sections: Vec<SectionCoefficients> = sections
+        .iter()
+        .map(|c| c.map(|x| round(x, precision)))
+        .collect();
+    let running = match precision {
+        CoefficientPrecision::F64 => design,
+        CoefficientPrecision::F32 => check_sections(&sections),
+    };
+    if !running.stable() {
+        return Err(unstable_after_rounding(structure, &running));
+    }
+    Ok(Realization {
+        structure,
+        precision,
+        coefficients: StructureCoefficients::Sections {
+            gain,
+            sections: sections.clone(),
+        },
+        max_pole_radius: running.max_pole_radius,
+        filter: Filter::Sections(SectionCascade::new(gain, sections)),
+    })
+}
+
+fn realize_lattice(
+    h: &Normalised,
+    precision: CoefficientPrecision,
+) -> Result<Realization, RealizeError> {
+    let structure = Structure::LatticeLadder;
+    let (c, a) = h.padded();
+    let k = lattice::reflection_coefficients(&a)?;
+    let design = lattice_check(&k);
+    if !design.stable() {
+        return Err(unstable_design(structure, &design));
+    }
+    // Round k first, then fit the taps to the lattice that will actually run, so the numerator
+    // is matched to the rounded denominator's polynomials; then round the taps.
+    let k = round_all(&k, precision);
+    let running = match precision {
+        CoefficientPrecision::F64 => design,
+        CoefficientPrecision::F32 => lattice_check(&k),
+    };
+    if !running.stable() {
+        return Err(unstable_after_rounding(structure, &running));
+    }
+    let v = round_all(&lattice::ladder_taps(&k, &c), precision);
+    Ok(Realization {
+        structure,
+        precision,
+        coefficients: StructureCoefficients::LatticeLadder {
+            k: k.clone(),
+            v: v.clone(),
+        },
+        max_pole_radius: running.max_pole_radius,
+        filter: Filter::LatticeLadder(LatticeLadder::new(k, v)),
+    })
+}
+
+/// Poles of the lattice with reflection coefficients `k`: stable exactly when every |k| < 1;
+/// the radius comes from the roots of the stepped-up denominator.
+fn lattice_check(k: &[f64]) -> PoleCheck {
+    let failing_stage = k
+        .iter()
+        .position(|x| !(x.abs() < 1.0))
+        .map(|i| (i + 1, k[i]));
+    let (max_pole_radius, root_problem) = max_root_radius(&step_up(k));
+    PoleCheck {
+        max_pole_radius,
+        failing_stage,
+        root_problem,
+    }
+}
+
+#[cfg(any(test, feature = "test-door"))]
+impl Filter {
+    /// Test-only door: a direct-form filter straight from coefficients, with no stability check.
+    /// Compiled only for tests (feature `test-door`); the pipeline never builds filters this way.
+    /// Tests use it to put a runaway filter in front of the engine's guards.
+    pub fn unvalidated_direct_form(b: Vec<f64>, a: Vec<f64>) -> Filter {
+        let n = b.len().max(a.len());
+        let (mut b, mut a) = (b, a);
+        b.resize(n, 0.0);
+        a.resize(n, 0.0);
+        Filter::DirectForm2T(DirectForm2T::new(b, a))
+    }
+}

@@ -1,0 +1,37 @@
+//! The coefficients a realization runs, in plain serialisable form for reports.
+
+use serde::Serialize;
+
+use crate::model::TransferFunction;
+
+use super::lattice::expand_lattice;
+use super::sections::{expand_sections, SectionCoefficients};
+
+/// Coefficients of a realized structure exactly as the filter holds them (after rounding).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum StructureCoefficients {
+    /// H = B/A with a[0] = 1, both of the same length.
+    DirectForm2T { b: Vec<f64>, a: Vec<f64> },
+    /// H = gain · Π sections, each `[b0, b1, b2, a0, a1, a2]` with a0 = 1, in running order.
+    Sections {
+        gain: f64,
+        sections: Vec<SectionCoefficients>,
+    },
+    /// Reflection coefficients k₁…k_M and ladder taps v₀…v_M.
+    LatticeLadder { k: Vec<f64>, v: Vec<f64> },
+}
+
+impl StructureCoefficients {
+    /// The transfer function these coefficients run, multiplied out into B(z)/A(z).
+    ///
+    /// Comparing it with the design shows what rounding did to the response.
+    pub fn transfer_function(&self) -> TransferFunction {
+        let (b, a) = match self {
+            StructureCoefficients::DirectForm2T { b, a } => (b.clone(), a.clone()),
+            StructureCoefficients::Sections { gain, sections } => expand_sections(*gain, sections),
+            StructureCoefficients::LatticeLadder { k, v } => expand_lattice(k, v),
+        };
+        TransferFunction::new(b, a)
+    }
+}

@@ -1,0 +1,65 @@
+//! Helpers shared by the integration tests: filter sets built through the library's own
+//! pipeline, and simple test signals.
+#![allow(dead_code)]
+
+use redress::analysis::analyse;
+use redress::design::design_exact;
+use redress::engine::Equalizer;
+use redress::model::{CoefficientPrecision, Structure, TransferFunction};
+use redress::numeric::impulse::decayed_impulse_response;
+use redress::realize::{realize, Filter};
+
+/// Exact-inverse filters for `channel`, one per audio channel, as a generation-tagged set.
+pub fn inverse_set(channel: &TransferFunction, channels: usize, generation: u64) -> Equalizer {
+    let analysis = analyse(channel, 1e-9).expect("analysis");
+    let design = design_exact(channel, &analysis, 48_000.0).expect("invertible test channel");
+    let realization = realize(
+        &design.inverse,
+        Structure::Sections,
+        CoefficientPrecision::F32,
+    )
+    .expect("realizable");
+    let bound: f64 = decayed_impulse_response(&design.inverse.b, &design.inverse.a, 1 << 16)
+        .iter()
+        .map(|x| x.abs())
+        .sum();
+    Equalizer::from_filters(vec![realization.filter; channels], bound, generation)
+}
+
+/// A deliberately unstable set, built straight from coefficients (the test-only way round
+/// validation): 1/(1 − 1.5z⁻¹) grows by half again every sample.
+pub fn runaway_set(channels: usize, generation: u64) -> Equalizer {
+    let f = Filter::unvalidated_direct_form(vec![1.0], vec![1.0, -1.5]);
+    Equalizer::from_filters(vec![f; channels], 1.0, generation)
+}
+
+/// Interleaved sine, same on every channel.
+pub fn sine(
+    frames: usize,
+    channels: usize,
+    freq_hz: f64,
+    amplitude: f32,
+    start: usize,
+) -> Vec<f32> {
+    (start..start + frames)
+        .flat_map(|n| {
+            let v = amplitude
+                * (2.0 * std::f64::consts::PI * freq_hz * n as f64 / 48_000.0).sin() as f32;
+            std::iter::repeat_n(v, channels)
+        })
+        .collect()
+}
+
+/// An echo line (direct path plus two weaker reflections), invertible.
+pub fn echo_line() -> TransferFunction {
+    let mut b = vec![0.0; 40];
+    b[0] = 1.0;
+    b[17] = 0.35;
+    b[39] = -0.2;
+    TransferFunction::new(b, vec![1.0])
+}
+
+/// A different invertible link: a short resonant line, for swap tests.
+pub fn resonant_line() -> TransferFunction {
+    TransferFunction::new(vec![1.0, -0.6, 0.25], vec![1.0, -0.3])
+}
