@@ -16,9 +16,10 @@ use serde::Deserialize;
 
 use redress::analysis::{analyse, ChannelAnalysis, Placement};
 use redress::design::{design_exact, DesignError, InverseDesign};
-use redress::model::TransferFunction;
+use redress::model::{CoefficientPrecision, Structure, TransferFunction};
 use redress::numeric::response::response_at;
 use redress::numeric::roots::Root;
+use redress::realize::{realize, Filter, Realization};
 
 // ---------------------------------------------------------------------------------------------
 // Tolerances (why each is what it is).
@@ -74,6 +75,7 @@ struct Fixture {
     poles_inside: usize,
     poles_on_circle: usize,
     poles_outside: usize,
+    max_zero_radius: f64,
     channel_stable: bool,
     invertible: bool,
     verdict: String,
@@ -99,9 +101,12 @@ struct Inverse {
     b: Vec<f64>,
     a: Vec<f64>,
     gain: f64,
+    impulse_response: Vec<f64>,
     cascade_impulse_response: Vec<f64>,
     magnitude: Magnitude,
     peak: PeakFixture,
+    signal_output_sections: Vec<f64>,
+    signal_output_direct: Vec<f64>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -712,6 +717,212 @@ fn peak_boost_matches_dense_freqz() {
                     design.peak_boost_hz
                 ),
             );
+        }
+    }
+    m.assert_none();
+}
+
+// ---------------------------------------------------------------------------------------------
+// Realizations, run sample by sample.
+
+/// Impulse responses and the cascade: recursions of a few hundred steps, each step a few ulps.
+const IMPULSE_TOLERANCE: f64 = 1e-10;
+
+/// The 512-sample test signal through each structure, relative to the output's largest sample.
+const SIGNAL_TOLERANCE: f64 = 1e-9;
+
+const STRUCTURES: [Structure; 3] = [
+    Structure::DirectForm2T,
+    Structure::Sections,
+    Structure::LatticeLadder,
+];
+
+fn run(filter: &mut Filter, input: &[f64]) -> Vec<f64> {
+    input.iter().map(|&x| filter.process_sample(x)).collect()
+}
+
+fn impulse(length: usize) -> Vec<f64> {
+    let mut x = vec![0.0; length];
+    x[0] = 1.0;
+    x
+}
+
+/// The channel itself, run as its difference equation
+/// a₀·y[n] = Σ bₖ·x[n−k] − Σ_{k≥1} aₖ·y[n−k] (common practice), to build the cascade.
+fn run_channel(b: &[f64], a: &[f64], input: &[f64]) -> Vec<f64> {
+    let mut y = vec![0.0; input.len()];
+    for n in 0..input.len() {
+        let feed: f64 = (0..b.len().min(n + 1)).map(|k| b[k] * input[n - k]).sum();
+        let back: f64 = (1..a.len().min(n + 1)).map(|k| a[k] * y[n - k]).sum();
+        y[n] = (feed - back) / a[0];
+    }
+    y
+}
+
+/// Each structure realized from the design in f64; a refusal is noted as a mismatch.
+fn realizations(m: &mut Mismatches, f: &Fixture, design: &InverseDesign) -> Vec<Realization> {
+    STRUCTURES
+        .iter()
+        .filter_map(|&structure| {
+            match realize(&design.inverse, structure, CoefficientPrecision::F64) {
+                Ok(r) => Some(r),
+                Err(e) => {
+                    m.note(
+                        &f.channel,
+                        &format!("realize {}", structure.name()),
+                        format!("expected a filter, got an error: {e}"),
+                    );
+                    None
+                }
+            }
+        })
+        .collect()
+}
+
+fn compare_signals(
+    m: &mut Mismatches,
+    channel: &str,
+    quantity: &str,
+    ours: &[f64],
+    reference: &[f64],
+    tolerance: f64,
+) {
+    let (i, e) = worst_relative(ours, reference, max_abs(reference));
+    if ours.len() != reference.len() || e > tolerance {
+        m.note(
+            channel,
+            quantity,
+            format!(
+                "[{i}] expected {}, got {} (error {e:.2e} of the largest sample > {tolerance:.0e})",
+                reference[i], ours[i]
+            ),
+        );
+    }
+}
+
+#[test]
+fn inverse_impulse_response_matches_lfilter_in_every_structure() {
+    let mut m = Mismatches::default();
+    for f in fixtures() {
+        let Some((design, reference)) = m.design(&f) else {
+            continue;
+        };
+        let input = impulse(reference.impulse_response.len());
+        for Realization {
+            structure,
+            mut filter,
+            ..
+        } in realizations(&mut m, &f, &design)
+        {
+            // Source: scipy 1.17.1 scipy.signal.lfilter(G_b, G_a, δ), 256 samples.
+            compare_signals(
+                &mut m,
+                &f.channel,
+                &format!("impulse response, {}", structure.name()),
+                &run(&mut filter, &input),
+                &reference.impulse_response,
+                IMPULSE_TOLERANCE,
+            );
+        }
+    }
+    m.assert_none();
+}
+
+#[test]
+fn channel_then_inverse_is_a_delayed_impulse() {
+    let mut m = Mismatches::default();
+    for f in fixtures() {
+        let Some((design, reference)) = m.design(&f) else {
+            continue;
+        };
+        let input = impulse(reference.cascade_impulse_response.len());
+        for Realization {
+            structure,
+            mut filter,
+            ..
+        } in realizations(&mut m, &f, &design)
+        {
+            let cascade = run_channel(&f.b, &f.a, &run(&mut filter, &input));
+            // Source: scipy 1.17.1 scipy.signal.lfilter, channel applied to the inverse's
+            // impulse response: δ(n − D) up to round-off.
+            compare_signals(
+                &mut m,
+                &f.channel,
+                &format!("cascade channel∘inverse, {}", structure.name()),
+                &cascade,
+                &reference.cascade_impulse_response,
+                IMPULSE_TOLERANCE,
+            );
+        }
+    }
+    m.assert_none();
+}
+
+#[test]
+fn realizations_match_sosfilt_and_lfilter_on_the_test_signal() {
+    let signal: SignalFixture = read_json(&fixture_dir().join("signal.json"));
+    let mut m = Mismatches::default();
+    for f in fixtures() {
+        let Some((design, reference)) = m.design(&f) else {
+            continue;
+        };
+        for Realization {
+            structure,
+            mut filter,
+            ..
+        } in realizations(&mut m, &f, &design)
+        {
+            let output = run(&mut filter, &signal.signal);
+            // Source: scipy 1.17.1 scipy.signal.sosfilt with the sections of
+            // scipy.signal.tf2sos(G_b, G_a), on a numpy 2.4.6 default_rng signal.
+            compare_signals(
+                &mut m,
+                &f.channel,
+                &format!("test signal vs sosfilt, {}", structure.name()),
+                &output,
+                &reference.signal_output_sections,
+                SIGNAL_TOLERANCE,
+            );
+            // Source: scipy 1.17.1 scipy.signal.lfilter(G_b, G_a, signal).
+            compare_signals(
+                &mut m,
+                &f.channel,
+                &format!("test signal vs lfilter, {}", structure.name()),
+                &output,
+                &reference.signal_output_direct,
+                SIGNAL_TOLERANCE,
+            );
+        }
+    }
+    m.assert_none();
+}
+
+#[test]
+fn realized_pole_radius_matches_numpy_zero_radius() {
+    let mut m = Mismatches::default();
+    for f in fixtures() {
+        let Some((design, _)) = m.design(&f) else {
+            continue;
+        };
+        for r in realizations(&mut m, &f, &design) {
+            // Source: numpy 2.4.6 numpy.roots — the inverse's poles are the channel's zeros, so
+            // the largest pole radius in f64 is the largest |zero|. A repeated zero is only
+            // known to numpy within its scatter (see root_tolerance).
+            let multiplicity = f
+                .constructed_zeros
+                .as_ref()
+                .map_or(1, |c| c.iter().map(|z| z.multiplicity).max().unwrap_or(1));
+            let tolerance = root_tolerance(multiplicity);
+            if (r.max_pole_radius - f.max_zero_radius).abs() > tolerance {
+                m.note(
+                    &f.channel,
+                    &format!("largest pole radius, {}", r.structure.name()),
+                    format!(
+                        "expected {}, got {} (tolerance {tolerance:.1e})",
+                        f.max_zero_radius, r.max_pole_radius
+                    ),
+                );
+            }
         }
     }
     m.assert_none();
