@@ -2,7 +2,7 @@ use std::path::PathBuf;
 
 use serde::Serialize;
 
-use super::{InversePolicy, TransferFunction};
+use super::{InversePolicy, RuntimeSettings, TransferFunction};
 
 /// How the user described a path's channel in the config (kept for reports).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -76,6 +76,8 @@ pub struct Link {
     /// Number of audio channels; every index in 0..channel_count has exactly one path.
     pub channel_count: usize,
     pub paths: Vec<Path>,
+    /// Devices and engine behaviour for the live service (defaults when the file says nothing).
+    pub runtime: RuntimeSettings,
 }
 
 impl Link {

@@ -7,6 +7,7 @@ pub mod config;
 pub mod error;
 mod link;
 mod policy;
+mod runtime;
 mod transfer;
 
 pub use error::ConfigError;
@@ -15,6 +16,7 @@ pub use policy::{
     FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,
     DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, MAX_FIR_TAPS,
 };
+pub use runtime::{AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings};
 pub use transfer::TransferFunction;
 
 /// Most coefficients a numerator or denominator may have (order + 1). Root finding is O(n³) and
