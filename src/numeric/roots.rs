@@ -115,8 +115,7 @@ fn companion_eigenvalues(c: &[f64]) -> Result<Vec<Complex64>, RootError> {
         m[(i, i - 1)] = 1.0;
     }
     let max_iterations = 100 * n.max(10);
-    if let Some(schur) = nalgebra::linalg::Schur::try_new(m.clone(), f64::EPSILON, max_iterations)
-    {
+    if let Some(schur) = nalgebra::linalg::Schur::try_new(m.clone(), f64::EPSILON, max_iterations) {
         return Ok(to_complex(&schur.complex_eigenvalues()));
     }
     // The shifted QR iteration can stall on companion matrices whose roots are spread evenly
@@ -127,8 +126,7 @@ fn companion_eigenvalues(c: &[f64]) -> Result<Vec<Complex64>, RootError> {
     for attempt in 1..=3u32 {
         let h = householder(n, attempt);
         let rotated = &h * &m * &h;
-        if let Some(schur) =
-            nalgebra::linalg::Schur::try_new(rotated, f64::EPSILON, max_iterations)
+        if let Some(schur) = nalgebra::linalg::Schur::try_new(rotated, f64::EPSILON, max_iterations)
         {
             return Ok(to_complex(&schur.complex_eigenvalues()));
         }
@@ -284,7 +282,10 @@ mod tests {
             let count: usize = roots.iter().map(|r| r.multiplicity).sum();
             assert_eq!(count, n);
             for r in &roots {
-                assert!((r.radius() - 0.5f64.powf(1.0 / n as f64)).abs() < 1e-12, "N = {n}");
+                assert!(
+                    (r.radius() - 0.5f64.powf(1.0 / n as f64)).abs() < 1e-12,
+                    "N = {n}"
+                );
             }
         }
     }
