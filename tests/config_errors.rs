@@ -40,6 +40,7 @@ const CATALOGUE: &[Case] = &[
     case("not_utf8", NotUtf8, 7, None, "not UTF-8"),
     case("syntax_missing_value", Syntax, 4, None, "the value is missing"),
     case("duplicate_key", Syntax, 5, None, "duplicate key"),
+    case("unquoted_text", Syntax, 5, None, "write precision = \"f64\""),
     // Keys missing, unknown or misplaced.
     case("missing_link", MissingKey, 1, Some("link"), "no [link] table"),
     case("missing_sample_rate", MissingKey, 2, Some("link.sample_rate_hz"), "`sample_rate_hz` is missing"),
@@ -99,6 +100,7 @@ const CATALOGUE: &[Case] = &[
     case("tap_rounds_to_no_delay", OutOfRange, 10, Some("path[0].echoes.taps[0].delay_ms"), "under half a sample"),
     case("direct_delay_negative", OutOfRange, 10, Some("path[0].echoes.direct_delay_samples"), "negative delay"),
     case("echo_delay_too_long", TooLong, 11, Some("path[0].echoes.taps[0].delay_ms"), "1224 samples"),
+    case("echo_delay_huge", TooLong, 11, Some("path[0].echoes.taps[0].delay_samples"), "longest supported is 1024"),
     case("echoes_add_to_nothing", AllZero, 9, Some("path[0].echoes"), "no signal"),
     // Sections.
     case("section_a0_zero", LeadingZero, 10, Some("path[0].sections[1]"), "a0 (the fourth number) is zero"),

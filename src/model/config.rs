@@ -56,7 +56,7 @@ use self::path_table::read_path;
 use self::schema::{PATH, TOP};
 use self::tree::Ctx;
 use super::error::{ConfigError, ConfigErrorKind};
-use super::Link;
+use super::{Link, RuntimeSettings};
 
 /// Parses and checks a link config. `source` names the file in errors and in [`Link::source`].
 pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError> {
@@ -105,6 +105,8 @@ pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError
         sample_rate: link.sample_rate,
         channel_count: link.channel_count,
         paths,
+        // The schema has no keys for devices or engine guards yet: defaults.
+        runtime: RuntimeSettings::default(),
     })
 }
 

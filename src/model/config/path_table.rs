@@ -11,7 +11,7 @@ use super::sections::read_sections;
 use super::tree::Node;
 use super::zeros_poles::read_zeros_poles;
 use crate::model::error::{ConfigError, ConfigErrorKind};
-use crate::model::{ModelForm, Path, Structure};
+use crate::model::{InversePolicy, ModelForm, Path, Structure};
 
 /// The four ways to describe a path's channel; a path has exactly one of them.
 const MODELS: [(&str, ModelForm); 4] = [
@@ -144,6 +144,8 @@ pub(crate) fn read_path<'a>(
             structure,
             precision: link.precision,
             circle_tolerance: link.circle_tolerance,
+            // The schema has no keys for the inverse policy yet: every path gets the default.
+            inverse: InversePolicy::default(),
         },
         channel_nodes,
     })

@@ -57,26 +57,41 @@ impl<'t> Ctx<'t> {
             let rest = rest.trim_start();
             rest.is_empty() || rest.starts_with('#')
         });
-        let (problem, help) = if value_missing {
+        // A bare word after `=` (precision = f64) makes toml guess at a boolean or a number.
+        let bare_word = line_text.split_once('=').and_then(|(key, rest)| {
+            let word = rest.split('#').next().unwrap_or("").trim();
+            let is_word = word.starts_with(|c: char| c.is_ascii_alphabetic())
+                && word.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')
+                && !["true", "false", "inf", "nan"].contains(&word);
+            is_word.then(|| (key.trim(), word))
+        });
+        let (problem, help) = if let Some((key, word)) = bare_word {
+            (
+                format!("`{word}` is not quoted: text values are written in double quotes"),
+                format!("write {key} = \"{word}\""),
+            )
+        } else if value_missing {
             (
                 "nothing follows `=`: the value is missing".to_owned(),
-                "write a value after `=`, or remove the line to use the default",
+                "write a value after `=`, or remove the line to use the default".to_owned(),
             )
         } else if message.contains("duplicate key") {
             (
                 format!("not valid TOML: {message}"),
-                "each key may appear only once in a table: remove or rename one of them",
+                "each key may appear only once in a table: remove or rename one of them".to_owned(),
             )
         } else if message.contains("quoted") {
             (
                 format!("not valid TOML: {message}"),
-                "write text in double quotes (\"f32\"), numbers as digits (48000, 0.5), lists in [ ]",
+                "write text in double quotes (\"f32\"), numbers as digits (48000, 0.5), lists in [ ]"
+                    .to_owned(),
             )
         } else {
             (
                 format!("not valid TOML: {message}"),
                 "fix the TOML syntax here: text in double quotes, lists in [ ], one `key = value` \
-                 per line",
+                 per line"
+                    .to_owned(),
             )
         };
         let mut placed = self.place(
