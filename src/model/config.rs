@@ -43,6 +43,7 @@ mod parse_tests;
 mod path_table;
 mod schema;
 mod sections;
+mod syntax_error;
 mod tree;
 mod zeros_poles;
 

@@ -12,6 +12,7 @@ use toml::de::{DeTable, DeValue};
 
 use super::line_index::LineIndex;
 use super::schema::{TableSchema, ALL_TABLES};
+use super::syntax_error::explain_syntax_error;
 use crate::model::error::{ConfigError, ConfigErrorKind};
 
 /// Longest value text quoted in an error before it is shortened.
@@ -51,49 +52,7 @@ impl<'t> Ctx<'t> {
         let span = error.span().unwrap_or(0..0);
         let (line, _) = self.lines.position(self.text, span.start);
         let line_text = self.lines.line_text(self.text, line);
-        let message = error.message().trim();
-        // toml reports `key =` with nothing after it as an unquoted string; say what it is.
-        let value_missing = line_text.split_once('=').is_some_and(|(_, rest)| {
-            let rest = rest.trim_start();
-            rest.is_empty() || rest.starts_with('#')
-        });
-        // A bare word after `=` (precision = f64) makes toml guess at a boolean or a number.
-        let bare_word = line_text.split_once('=').and_then(|(key, rest)| {
-            let word = rest.split('#').next().unwrap_or("").trim();
-            let is_word = word.starts_with(|c: char| c.is_ascii_alphabetic())
-                && word.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')
-                && !["true", "false", "inf", "nan"].contains(&word);
-            is_word.then(|| (key.trim(), word))
-        });
-        let (problem, help) = if let Some((key, word)) = bare_word {
-            (
-                format!("`{word}` is not quoted: text values are written in double quotes"),
-                format!("write {key} = \"{word}\""),
-            )
-        } else if value_missing {
-            (
-                "nothing follows `=`: the value is missing".to_owned(),
-                "write a value after `=`, or remove the line to use the default".to_owned(),
-            )
-        } else if message.contains("duplicate key") {
-            (
-                format!("not valid TOML: {message}"),
-                "each key may appear only once in a table: remove or rename one of them".to_owned(),
-            )
-        } else if message.contains("quoted") {
-            (
-                format!("not valid TOML: {message}"),
-                "write text in double quotes (\"f32\"), numbers as digits (48000, 0.5), lists in [ ]"
-                    .to_owned(),
-            )
-        } else {
-            (
-                format!("not valid TOML: {message}"),
-                "fix the TOML syntax here: text in double quotes, lists in [ ], one `key = value` \
-                 per line"
-                    .to_owned(),
-            )
-        };
+        let (problem, help) = explain_syntax_error(line_text, error.message().trim());
         let mut placed = self.place(
             ConfigError::new(ConfigErrorKind::Syntax, problem, help),
             None,
