@@ -115,10 +115,38 @@ fn companion_eigenvalues(c: &[f64]) -> Result<Vec<Complex64>, RootError> {
         m[(i, i - 1)] = 1.0;
     }
     let max_iterations = 100 * n.max(10);
-    let schur = nalgebra::linalg::Schur::try_new(m, f64::EPSILON, max_iterations)
-        .ok_or(RootError::NoConvergence { order: n })?;
-    let eig = schur.complex_eigenvalues();
-    Ok(eig.iter().map(|e| Complex64::new(e.re, e.im)).collect())
+    if let Some(schur) = nalgebra::linalg::Schur::try_new(m.clone(), f64::EPSILON, max_iterations) {
+        return Ok(to_complex(&schur.complex_eigenvalues()));
+    }
+    // The shifted QR iteration can stall on companion matrices whose roots are spread evenly
+    // round a circle (a single echo 1 + g·z⁻ᴺ is exactly that): the matrix is close to a cyclic
+    // permutation, on which the standard shifts make no progress. An orthogonal similarity
+    // H·M·H (H a Householder reflector) has the same eigenvalues but a different Hessenberg
+    // form, which breaks the symmetry; try a few fixed, irregular reflectors.
+    for attempt in 1..=3u32 {
+        let h = householder(n, attempt);
+        let rotated = &h * &m * &h;
+        if let Some(schur) = nalgebra::linalg::Schur::try_new(rotated, f64::EPSILON, max_iterations)
+        {
+            return Ok(to_complex(&schur.complex_eigenvalues()));
+        }
+    }
+    Err(RootError::NoConvergence { order: n })
+}
+
+fn to_complex(eig: &nalgebra::DVector<num_complex::Complex<f64>>) -> Vec<Complex64> {
+    eig.iter().map(|e| Complex64::new(e.re, e.im)).collect()
+}
+
+/// I − 2·v·vᵀ/‖v‖² for a fixed, irregular v (deterministic, so results are repeatable).
+fn householder(n: usize, attempt: u32) -> DMatrix<f64> {
+    let v = nalgebra::DVector::<f64>::from_fn(n, |i, _| {
+        // Fractional parts of multiples of an irrational number: irregular, never all zero.
+        let x = (i as f64 + 1.0) * (std::f64::consts::SQRT_2 + f64::from(attempt));
+        x - x.floor() + 0.1
+    });
+    let norm2 = v.dot(&v);
+    DMatrix::<f64>::identity(n, n) - (&v * v.transpose()) * (2.0 / norm2)
 }
 
 /// Coefficients of the `times`-th derivative of the z-form polynomial `c[0]·zⁿ + … + c[n]`.
@@ -241,6 +269,25 @@ mod tests {
         assert!(roots
             .iter()
             .any(|r| (r.value.re - 0.5).abs() < 1e-15 && r.multiplicity == 1));
+    }
+
+    // Source: common practice — 1 + g·z⁻ᴺ has N zeros of radius g^(1/N), evenly spaced.
+    #[test]
+    fn single_echo_with_even_delay() {
+        for n in 2..=64usize {
+            let mut c = vec![0.0; n + 1];
+            c[0] = 1.0;
+            c[n] = 0.5;
+            let roots = find_roots(&c).unwrap_or_else(|e| panic!("N = {n}: {e}"));
+            let count: usize = roots.iter().map(|r| r.multiplicity).sum();
+            assert_eq!(count, n);
+            for r in &roots {
+                assert!(
+                    (r.radius() - 0.5f64.powf(1.0 / n as f64)).abs() < 1e-12,
+                    "N = {n}"
+                );
+            }
+        }
     }
 
     #[test]

@@ -36,6 +36,12 @@ pub enum RealizeError {
         relative_error: f64,
         tolerance: f64,
     },
+    /// A coefficient of the structure is too large for the run precision (or not finite).
+    CoefficientOverflow {
+        structure: Structure,
+        coefficient: String,
+        value: f64,
+    },
     /// After rounding the coefficients to the run precision, the structure as it would run has
     /// a pole on or outside the unit circle (or no finite pole radius could be computed).
     UnstableAfterRounding {
@@ -140,6 +146,17 @@ impl std::fmt::Display for RealizeError {
                  help: use structure {}, or describe the design by its zeros and poles \
                  rather than by expanded coefficients",
                 spelling(Structure::LatticeLadder)
+            ),
+            RealizeError::CoefficientOverflow {
+                structure,
+                coefficient,
+                value,
+            } => write!(
+                f,
+                "the {} realization needs coefficient {coefficient} = {value:e}, which does not \
+                 fit in the run precision\n  \
+                 help: scale the design down (move gain out of it) or use f64 coefficients",
+                structure.name()
             ),
             RealizeError::UnstableAfterRounding {
                 structure,

@@ -11,6 +11,7 @@
 //! the unit circle is refused, never run.
 
 mod coefficients;
+mod deflation;
 mod direct_form;
 mod error;
 mod lattice;
@@ -21,6 +22,8 @@ mod sections;
 
 #[cfg(test)]
 mod agreement_tests;
+#[cfg(test)]
+mod filter_tests;
 #[cfg(test)]
 mod quantization_tests;
 
@@ -34,7 +37,9 @@ use crate::model::{CoefficientPrecision, Structure, TransferFunction};
 use crate::numeric::stepdown::step_up;
 
 use normalise::{normalise, Normalised};
-use rounding::{check_denominator, max_root_radius, round, round_all, PoleCheck};
+use rounding::{
+    check_denominator, first_unrepresentable, max_root_radius, round, round_all, PoleCheck,
+};
 
 /// A filter ready to run, with the coefficients it runs and the largest pole radius they give.
 #[derive(Debug, Clone)]
@@ -119,6 +124,24 @@ pub fn realize(
     }
 }
 
+/// Refuses when any named coefficient vector holds a value that is not finite at `precision`.
+fn representable(
+    structure: Structure,
+    named: &[(&str, &[f64])],
+    precision: CoefficientPrecision,
+) -> Result<(), RealizeError> {
+    for (name, values) in named {
+        if let Some((coefficient, value)) = first_unrepresentable(name, values, precision) {
+            return Err(RealizeError::CoefficientOverflow {
+                structure,
+                coefficient,
+                value,
+            });
+        }
+    }
+    Ok(())
+}
+
 fn unstable_design(structure: Structure, check: &PoleCheck) -> RealizeError {
     RealizeError::UnstableDesign {
         structure,
@@ -145,6 +168,7 @@ fn realize_direct_form(
         return Err(unstable_design(structure, &design));
     }
     let (b, a) = h.padded();
+    representable(structure, &[("b", &b), ("a", &a)], precision)?;
     let (b, a) = (round_all(&b, precision), round_all(&a, precision));
     let running = match precision {
         CoefficientPrecision::F64 => design,
@@ -174,7 +198,7 @@ fn check_sections(sections: &[SectionCoefficients]) -> PoleCheck {
         if failing.is_none() && !check.stable() {
             failing = Some((i, check.clone()));
         }
-        if !(check.max_pole_radius <= worst.max_pole_radius) {
+        if check.max_pole_radius > worst.max_pole_radius || check.max_pole_radius.is_nan() {
             worst = check;
         }
     }
@@ -210,6 +234,15 @@ fn realize_sections(
     if !design.stable() {
         return Err(unstable_design(structure, &design));
     }
+    let flat: Vec<f64> = sections.iter().flatten().copied().collect();
+    representable(
+        structure,
+        &[
+            ("gain", &[gain]),
+            ("sections (flattened, 6 per section)", &flat),
+        ],
+        precision,
+    )?;
     let gain = round(gain, precision);
     let sections: Vec<SectionCoefficients> = sections
         .iter()
@@ -255,7 +288,9 @@ fn realize_lattice(
     if !running.stable() {
         return Err(unstable_after_rounding(structure, &running));
     }
-    let v = round_all(&lattice::ladder_taps(&k, &c), precision);
+    let v = lattice::ladder_taps(&k, &c);
+    representable(structure, &[("v", &v)], precision)?;
+    let v = round_all(&v, precision);
     Ok(Realization {
         structure,
         precision,
@@ -273,7 +308,7 @@ fn realize_lattice(
 fn lattice_check(k: &[f64]) -> PoleCheck {
     let failing_stage = k
         .iter()
-        .position(|x| !(x.abs() < 1.0))
+        .position(|x| x.abs() >= 1.0 || x.is_nan())
         .map(|i| (i + 1, k[i]));
     let (max_pole_radius, root_problem) = max_root_radius(&step_up(k));
     PoleCheck {

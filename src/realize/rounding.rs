@@ -5,6 +5,7 @@
 //! its roots (max radius) and the step-down recursion (every |k| < 1); either failing refuses.
 
 use crate::model::CoefficientPrecision;
+use crate::numeric::poly::trim_trailing_zeros;
 use crate::numeric::roots::find_roots;
 use crate::numeric::stepdown::step_down;
 
@@ -22,6 +23,19 @@ pub(crate) fn round(x: f64, precision: CoefficientPrecision) -> f64 {
 
 pub(crate) fn round_all(xs: &[f64], precision: CoefficientPrecision) -> Vec<f64> {
     xs.iter().map(|&x| round(x, precision)).collect()
+}
+
+/// The first coefficient that is not finite once rounded (f32 overflows above about 3.4e38),
+/// as (its name, e.g. `b[3]`, and its value before rounding).
+pub(crate) fn first_unrepresentable(
+    name: &str,
+    original: &[f64],
+    precision: CoefficientPrecision,
+) -> Option<(String, f64)> {
+    original
+        .iter()
+        .position(|&x| !round(x, precision).is_finite())
+        .map(|i| (format!("{name}[{i}]"), original[i]))
 }
 
 /// What the two stability tests say about one denominator `1 + a₁z⁻¹ + …`.
@@ -87,6 +101,12 @@ pub(crate) fn check_denominator(a: &[f64]) -> PoleCheck {
 
 /// Largest |root| of `a`, or NaN with the reason when the roots cannot be found.
 pub(crate) fn max_root_radius(a: &[f64]) -> (f64, Option<String>) {
+    // Trailing zeros are roots at the origin (radius 0); leaving them out also keeps a
+    // polynomial with only such roots away from the eigenvalue solver, which needs order ≥ 1.
+    let a = trim_trailing_zeros(a);
+    if a.len() <= 1 {
+        return (0.0, None);
+    }
     match find_roots(a) {
         Ok(roots) => {
             let radius = roots.iter().map(|r| r.radius()).fold(0.0_f64, |m, r| {
@@ -128,8 +148,10 @@ mod tests {
         assert!(!u.stable());
         assert_eq!(u.failing_stage.map(|s| s.0), Some(1));
         assert!(u.detail().contains("stage 1"));
-        let none = check_denominator(&[1.0]);
-        assert!(none.stable());
-        assert_eq!(none.max_pole_radius, 0.0);
+        for only_origin in [&[1.0][..], &[1.0, 0.0, 0.0]] {
+            let none = check_denominator(only_origin);
+            assert!(none.stable());
+            assert_eq!(none.max_pole_radius, 0.0);
+        }
     }
 }

@@ -10,6 +10,7 @@ use num_complex::Complex64;
 use crate::numeric::poly::{leading_zeros, multiply};
 use crate::numeric::roots::{expand, find_roots, Root};
 
+use super::deflation::refine_by_deflation;
 use super::normalise::Normalised;
 use super::pairing::{conjugate_groups, pair_into_sections, RootGroup};
 use super::RealizeError;
@@ -55,7 +56,7 @@ impl SectionCascade {
 
     /// Sum of the sections' orders (the highest power of z⁻¹ each one uses).
     pub fn order(&self) -> usize {
-        self.sections.iter().map(|c| section_order(c)).sum()
+        self.sections.iter().map(section_order).sum()
     }
 
     pub fn gain(&self) -> f64 {
@@ -88,18 +89,39 @@ pub(crate) fn factor(h: &Normalised) -> Result<(f64, Vec<SectionCoefficients>), 
     let gain = stripped[0];
     let zeros = groups("numerator", stripped)?;
     let poles = groups("denominator", &h.a)?;
-    let sections: Vec<SectionCoefficients> = pair_into_sections(&poles, &zeros, delay)
+    // Roots refined for the product first; the roots as found if that somehow does worse.
+    let refined = assemble(
+        &refine_by_deflation(&h.a, &poles),
+        &refine_by_deflation(stripped, &zeros),
+        delay,
+    );
+    match verify(h, gain, &refined) {
+        Ok(()) => Ok((gain, refined)),
+        Err(refined_error) => {
+            let found = assemble(&poles, &zeros, delay);
+            match verify(h, gain, &found) {
+                Ok(()) => Ok((gain, found)),
+                Err(_) => Err(refined_error),
+            }
+        }
+    }
+}
+
+fn assemble(poles: &[RootGroup], zeros: &[RootGroup], delay: usize) -> Vec<SectionCoefficients> {
+    pair_into_sections(poles, zeros, delay)
         .iter()
         .map(|s| {
             let b = s.numerator();
             let a = s.denominator();
             [b[0], b[1], b[2], a[0], a[1], a[2]]
         })
-        .collect();
-    let (b, a) = expand_sections(gain, &sections);
+        .collect()
+}
+
+fn verify(h: &Normalised, gain: f64, sections: &[SectionCoefficients]) -> Result<(), RealizeError> {
+    let (b, a) = expand_sections(gain, sections);
     check_reproduces("numerator", &b, &h.b)?;
-    check_reproduces("denominator", &a, &h.a)?;
-    Ok((gain, sections))
+    check_reproduces("denominator", &a, &h.a)
 }
 
 /// Real factors of `c` (c[0] ≠ 0); roots at the origin are factors of 1 and are left out.

@@ -1,0 +1,207 @@
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// Everything that can go wrong reading, writing or comparing audio files.
+///
+/// Every variant carries the file it concerns, and its `Display` ends with what to do about it,
+/// so the command-line shell can print it unchanged.
+#[derive(Debug)]
+pub enum IoError {
+    /// The file does not exist (or a folder on its path does not).
+    NotFound { file: PathBuf },
+    /// The operating system refused or failed the read or write.
+    Access {
+        file: PathBuf,
+        source: std::io::Error,
+    },
+    /// The file is not a RIFF/WAVE file at all.
+    NotWav { file: PathBuf, detail: String },
+    /// A WAV file whose sample format we do not read or write (8-bit, 64-bit float, compressed…).
+    UnsupportedFormat { file: PathBuf, detail: String },
+    /// The file's header or data are damaged.
+    Malformed { file: PathBuf, detail: String },
+    /// The file's channel count does not match the link's.
+    ChannelMismatch {
+        file: PathBuf,
+        found: usize,
+        expected: usize,
+    },
+    /// The file's sample rate does not match the one the other input or the link uses.
+    SampleRateMismatch {
+        file: PathBuf,
+        found: u32,
+        expected: u32,
+    },
+    /// A block handed to the writer is not a whole number of frames.
+    PartialFrame {
+        file: PathBuf,
+        samples: usize,
+        channels: usize,
+    },
+}
+
+impl IoError {
+    /// The file the error is about.
+    pub fn file(&self) -> &Path {
+        match self {
+            IoError::NotFound { file }
+            | IoError::Access { file, .. }
+            | IoError::NotWav { file, .. }
+            | IoError::UnsupportedFormat { file, .. }
+            | IoError::Malformed { file, .. }
+            | IoError::ChannelMismatch { file, .. }
+            | IoError::SampleRateMismatch { file, .. }
+            | IoError::PartialFrame { file, .. } => file,
+        }
+    }
+
+    /// Classifies an operating-system error on `file`.
+    pub(crate) fn from_os(file: &Path, source: std::io::Error) -> Self {
+        if source.kind() == std::io::ErrorKind::NotFound {
+            IoError::NotFound {
+                file: file.to_path_buf(),
+            }
+        } else {
+            IoError::Access {
+                file: file.to_path_buf(),
+                source,
+            }
+        }
+    }
+
+    /// Classifies an error the WAV crate reported while reading `file`.
+    pub(crate) fn from_wav_read(file: &Path, error: hound::Error) -> Self {
+        let file = file.to_path_buf();
+        match error {
+            hound::Error::IoError(source) => match source.kind() {
+                // A file too short to hold a RIFF header is simply not a WAV file.
+                std::io::ErrorKind::UnexpectedEof => IoError::NotWav {
+                    file,
+                    detail: "the file is shorter than a WAV header".to_string(),
+                },
+                _ => IoError::from_os(&file, source),
+            },
+            hound::Error::FormatError(what) if what.contains("RIFF") || what.contains("WAVE") => {
+                IoError::NotWav {
+                    file,
+                    detail: what.to_string(),
+                }
+            }
+            hound::Error::FormatError(what) if what.contains("bits per sample") => {
+                IoError::UnsupportedFormat {
+                    file,
+                    detail: what.to_string(),
+                }
+            }
+            hound::Error::FormatError(what) => IoError::Malformed {
+                file,
+                detail: what.to_string(),
+            },
+            hound::Error::Unsupported => IoError::UnsupportedFormat {
+                file,
+                detail: "compressed or otherwise unsupported sample encoding".to_string(),
+            },
+            other => IoError::Malformed {
+                file,
+                detail: other.to_string(),
+            },
+        }
+    }
+
+    /// Classifies an error the WAV crate reported while writing `file`.
+    pub(crate) fn from_wav_write(file: &Path, error: hound::Error) -> Self {
+        match error {
+            hound::Error::IoError(source) => IoError::from_os(file, source),
+            other => IoError::Malformed {
+                file: file.to_path_buf(),
+                detail: other.to_string(),
+            },
+        }
+    }
+}
+
+impl fmt::Display for IoError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            IoError::NotFound { file } => write!(
+                f,
+                "{}: no such file\n  help: check the path; a relative path is taken from the \
+                 current folder",
+                file.display()
+            ),
+            IoError::Access { file, source } => write!(
+                f,
+                "{}: {source}\n  help: check that the file (or its folder) exists and that you \
+                 may read or write it",
+                file.display()
+            ),
+            IoError::NotWav { file, detail } => write!(
+                f,
+                "{}: not a WAV file ({detail})\n  help: give a RIFF/WAVE file; convert other \
+                 formats first",
+                file.display()
+            ),
+            IoError::UnsupportedFormat { file, detail } => write!(
+                f,
+                "{}: unsupported WAV sample format ({detail})\n  help: use 16-, 24- or 32-bit \
+                 integer PCM or 32-bit float; convert 8-bit, 64-bit float or compressed files first",
+                file.display()
+            ),
+            IoError::Malformed { file, detail } => write!(
+                f,
+                "{}: damaged WAV file ({detail})\n  help: re-export the file from its source",
+                file.display()
+            ),
+            IoError::ChannelMismatch {
+                file,
+                found,
+                expected,
+            } => write!(
+                f,
+                "{}: the file has {found} channel{} but the link has {expected}\n  help: give a \
+                 file with {expected} channel{}, or change `channel_count` and the paths in the \
+                 config",
+                file.display(),
+                plural(*found),
+                plural(*expected)
+            ),
+            IoError::SampleRateMismatch {
+                file,
+                found,
+                expected,
+            } => write!(
+                f,
+                "{}: sample rate {found} Hz, expected {expected} Hz\n  help: resample the file \
+                 first, or describe the link at the file's rate",
+                file.display()
+            ),
+            IoError::PartialFrame {
+                file,
+                samples,
+                channels,
+            } => write!(
+                f,
+                "{}: a block of {samples} samples is not a whole number of {channels}-channel \
+                 frames\n  help: this is a bug in the caller; hand the writer whole frames",
+                file.display()
+            ),
+        }
+    }
+}
+
+fn plural(n: usize) -> &'static str {
+    if n == 1 {
+        ""
+    } else {
+        "s"
+    }
+}
+
+impl std::error::Error for IoError {
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        match self {
+            IoError::Access { source, .. } => Some(source),
+            _ => None,
+        }
+    }
+}

@@ -1,0 +1,230 @@
+//! The report's data: one structure both the text and the JSON renderings are made from.
+//!
+//! The JSON rendering is exactly these structures serialised, so their field names ARE the JSON
+//! schema. It is versioned by [`SCHEMA_VERSION`]: fields may be added within a version, never
+//! renamed, removed or given another meaning. Non-finite numbers (which JSON cannot carry) are
+//! written as `null`. Angles are in radians in (−π, π] and in Hz at the link's sample rate
+//! (angle · fs / 2π, negative for the lower member of a conjugate pair).
+
+use serde::Serialize;
+
+/// Bumped when a field is renamed, removed or changes meaning.
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// The whole link.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LinkReport {
+    /// Always "redress-link-report".
+    pub schema: &'static str,
+    pub schema_version: u32,
+    /// The config file the link came from, when it came from one.
+    pub source: Option<String>,
+    pub sample_rate_hz: f64,
+    pub channel_count: usize,
+    /// True when every path has a stable, realized inverse that the engine can run.
+    pub runnable: bool,
+    /// One plain sentence per reason the link cannot run (empty when runnable).
+    pub problems: Vec<String>,
+    pub paths: Vec<PathReport>,
+}
+
+/// One path: a channel model and what became of its inverse.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PathReport {
+    pub label: String,
+    /// Zero-based audio channel indices.
+    pub channels: Vec<usize>,
+    /// How the config described the channel: "difference_equation", "zeros_poles",
+    /// "echo_paths" or "sections".
+    pub form: String,
+    /// The channel H(z) = B(z)/A(z) as coefficients of z⁻¹.
+    pub channel: Coefficients,
+    /// Leading zero taps of B: delay the inverse cannot undo.
+    pub bulk_delay_samples: usize,
+    pub bulk_delay_ms: f64,
+    /// Why the analysis failed, when it did (then zeros and poles are empty).
+    pub analysis_error: Option<String>,
+    /// Roots of B after the bulk delay is stripped.
+    pub zeros: Vec<RootEntry>,
+    /// Roots of A.
+    pub poles: Vec<RootEntry>,
+    /// Every pole strictly inside the unit circle (null when not analysed).
+    pub channel_stable: Option<bool>,
+    pub step_down: Option<StepDownEntry>,
+    pub verdict: VerdictEntry,
+    /// The inverse, when one was designed.
+    pub inverse: Option<InverseEntry>,
+    /// Why no inverse was designed, when a design was attempted and failed.
+    pub design_error: Option<String>,
+    /// The running structure, when the inverse was realized.
+    pub realization: Option<RealizationEntry>,
+    /// Why the inverse could not be realized, when that failed.
+    pub realize_error: Option<String>,
+    /// True when this path has a realized inverse ready to run.
+    pub runnable: bool,
+}
+
+/// Polynomial coefficients of z⁻¹: b for the numerator, a for the denominator.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Coefficients {
+    pub b: Vec<f64>,
+    pub a: Vec<f64>,
+}
+
+/// A zero or a pole.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RootEntry {
+    pub re: f64,
+    pub im: f64,
+    /// |z|.
+    pub radius: f64,
+    pub angle_rad: f64,
+    pub angle_hz: f64,
+    pub multiplicity: usize,
+    /// "inside", "on_circle" or "outside" the unit circle (within the circle tolerance).
+    pub placement: String,
+    /// 1 − |z|: positive inside, negative outside.
+    pub margin: f64,
+}
+
+/// The independent step-down (Schur–Cohn) test and whether it agrees with the roots.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StepDownEntry {
+    /// Reflection coefficients k₁… of B (bulk delay stripped).
+    pub zero_reflection: Vec<f64>,
+    /// Stage at which |k| ≥ 1 stopped the recursion on B (null: every |k| < 1).
+    pub zero_stopped_at: Option<usize>,
+    /// Reflection coefficients k₁… of A.
+    pub pole_reflection: Vec<f64>,
+    pub pole_stopped_at: Option<usize>,
+    /// True when the step-down test and the roots tell the same story.
+    pub agrees_with_roots: bool,
+    /// Where they do not, in plain words.
+    pub disagreements: Vec<String>,
+}
+
+/// Does a stable, causal inverse exist?
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct VerdictEntry {
+    /// True when every zero is strictly inside the unit circle and the channel is stable.
+    pub invertible: bool,
+    /// The verdict in one plain sentence (the text report's verdict line, without "verdict: ").
+    pub summary: String,
+    /// The zeros on or outside the unit circle that prevent an exact inverse.
+    pub blocking_zeros: Vec<BlockingZero>,
+}
+
+/// A zero that prevents inversion and by how much.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BlockingZero {
+    #[serde(flatten)]
+    pub root: RootEntry,
+    /// |z| − 1: how far beyond the unit circle (≈ 0 for a zero on it).
+    pub beyond: f64,
+}
+
+/// The designed inverse G(z).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct InverseEntry {
+    /// How it was obtained: "exact", "minimum_phase" or "least_squares_fir".
+    pub method: String,
+    /// The same in plain words, e.g. "minimum-phase substitute".
+    pub method_name: String,
+    /// What this design leaves uncorrected, in one plain sentence.
+    pub gives_up: String,
+    /// G(z) with a₀ = 1.
+    pub coefficients: Coefficients,
+    /// The recursion that runs it, "y[n] = … x[n] … − … y[n−1] …".
+    pub difference_equation: String,
+    /// Leading coefficient of G's numerator.
+    pub gain: f64,
+    /// Delay left in channel∘inverse (the bulk delay).
+    pub residual_delay_samples: usize,
+    pub residual_delay_ms: f64,
+    /// Delay the inverse adds on purpose (the FIR inverse's D; 0 otherwise).
+    pub added_latency_samples: usize,
+    pub added_latency_ms: f64,
+    /// Largest gain of the inverse over frequency and where.
+    pub peak_boost_db: f64,
+    pub peak_boost_hz: f64,
+    /// Time for the inverse's impulse response to fall by 60 dB.
+    pub decay_60db_ms: f64,
+    /// Gain applied to hold the cascade at 0 dB at the configured frequency (0 when none).
+    pub unity_scale_db: f64,
+    /// Zeros outside the circle that were reflected to 1/conj(z) (as they were).
+    pub reflected_zeros: Vec<RootEntry>,
+    /// The uncorrected all-pass left by reflection, when zeros were reflected.
+    pub all_pass: Option<AllPassEntry>,
+    /// What the boost cap changed, when it acted.
+    pub boost_cap: Option<BoostCapEntry>,
+    /// Details of a least-squares FIR inverse.
+    pub fir: Option<FirEntry>,
+}
+
+/// The phase error a minimum-phase substitute leaves: an all-pass, described by its group delay.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AllPassEntry {
+    pub group_delay_min_ms: f64,
+    pub group_delay_max_ms: f64,
+}
+
+/// What the boost cap did.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BoostCapEntry {
+    pub cap_db: f64,
+    /// Radius the outermost zeros were pulled in to (null when none moved).
+    pub radius_limit: Option<f64>,
+    pub moved_zeros: Vec<MovedZeroEntry>,
+    /// Broadband level reduction when moving zeros was not enough (dB ≥ 0).
+    pub level_reduction_db: f64,
+    /// Peak the inverse would have had without the cap (null: unbounded, a zero on the circle).
+    pub peak_before_db: f64,
+}
+
+/// A zero the boost cap moved.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MovedZeroEntry {
+    pub from_re: f64,
+    pub from_im: f64,
+    pub to_re: f64,
+    pub to_im: f64,
+}
+
+/// The least-squares FIR inverse's figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FirEntry {
+    pub taps: usize,
+    pub delay_samples: usize,
+    pub delay_ms: f64,
+    pub delay_searched: bool,
+    pub regularization: f64,
+    pub level_reduction_db: f64,
+    /// ‖h∗g − δ(n−D)‖² in dB.
+    pub residual_error_db: f64,
+}
+
+/// The structure the inverse runs in.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RealizationEntry {
+    /// "direct_form_2t", "sections" or "lattice_ladder" (the config's spellings).
+    pub structure: String,
+    /// Plain name, e.g. "direct form II transposed".
+    pub structure_name: String,
+    /// "f32" or "f64": what the coefficients were rounded to.
+    pub precision: String,
+    /// The structure's own coefficients, as the realization stage lays them out.
+    pub coefficients: serde_json::Value,
+    /// Largest pole radius of the realized filter, after rounding.
+    pub max_pole_radius: f64,
+    /// Why the requested structure was not used, when the realization switched to a sturdier
+    /// one (null when it runs as requested).
+    pub switched_from: Option<StructureSwitchEntry>,
+}
+
+/// A switch away from the requested structure.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StructureSwitchEntry {
+    /// The structure the config asked for ("direct_form_2t", "sections", "lattice_ladder").
+    pub requested: String,
+    pub reason: String,
+}
