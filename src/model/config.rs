@@ -1,1 +1,163 @@
-//! TOML text → validated [`super::Link`]. (being written)
+//! TOML text → validated [`Link`].
+//!
+//! The schema (every key below is checked; any other key is an error that suggests the nearest
+//! valid one):
+//!
+//! ```toml
+//! [link]
+//! sample_rate_hz = 48000        # required, within SAMPLE_RATE_RANGE
+//! channel_count = 2             # required, 1..=MAX_CHANNELS
+//! circle_tolerance = 1e-9       # optional, > 0 and < 0.1
+//! precision = "f32"             # optional, "f32" | "f64"
+//!
+//! [[path]]                      # one or more; together they cover every channel exactly once
+//! label = "east rack feed"      # optional, default "path N" (1-based)
+//! channels = [0, 1]             # required, zero-based
+//! structure = "sections"        # optional, "direct_form_2t" | "sections" | "lattice_ladder";
+//!                               # default "sections" when the inverse's order is above 2
+//! # exactly one model:
+//! difference_equation = { b = [1.0, 0.5], a = [1.0] }
+//! # [path.roots]   zeros = […], poles = […], gain = 1.0, conjugates = "require" | "add"
+//! # [path.echoes]  direct_gain, direct_delay_samples, taps = [{ delay_samples | delay_ms, gain }]
+//! # sections = [[b0, b1, b2, a0, a1, a2], …]
+//! ```
+//!
+//! A zero or pole is written `0.3`, `[re, im]`, `{ radius = 0.9, angle_deg = 30 }` or
+//! `{ radius = 0.9, angle_rad = 0.52 }`. Echo conventions are documented in `config/echoes.rs`. Errors stop at the
+//! first problem found; each names file, line, column, key path, value, problem and help.
+
+// A config error is built once, on the way out, and carries the whole message; boxing it would
+// only add an allocation to the rare path and a layer to every caller's match.
+#![allow(clippy::result_large_err)]
+
+mod channel_owners;
+mod complex_value;
+mod conjugates;
+mod difference_equation;
+mod echoes;
+mod finish_channel;
+mod line_index;
+mod link_table;
+#[cfg(test)]
+mod parse_tests;
+mod path_table;
+mod schema;
+mod sections;
+mod syntax_error;
+mod tree;
+mod zeros_poles;
+
+use std::path::Path;
+
+use toml::de::DeTable;
+
+use self::channel_owners::ChannelOwners;
+use self::link_table::read_link;
+use self::path_table::read_path;
+use self::schema::{PATH, TOP};
+use self::tree::Ctx;
+use super::error::{ConfigError, ConfigErrorKind};
+use super::{Link, RuntimeSettings};
+
+/// Parses and checks a link config. `source` names the file in errors and in [`Link::source`].
+pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError> {
+    let ctx = Ctx::new(text, source);
+    let document = DeTable::parse(text).map_err(|e| ctx.syntax(&e))?;
+    let root = ctx.root(document.get_ref());
+    root.refuse_unknown_keys(&TOP)?;
+
+    let link = read_link(&root)?;
+
+    let paths_node = root.get(PATH).ok_or_else(|| {
+        root.missing(
+            PATH,
+            ConfigErrorKind::MissingKey,
+            "the config has no [[path]] table, so nothing says what the link does to the audio",
+            "add a [[path]] with channels = […] and one channel model",
+        )
+    })?;
+    if paths_node.is_table() {
+        return Err(paths_node.fail(
+            ConfigErrorKind::WrongType,
+            "`path` is a single table, but paths are a list of tables",
+            "write each path's header with double brackets: [[path]]",
+        ));
+    }
+    let path_nodes = paths_node.array()?;
+    if path_nodes.is_empty() {
+        return Err(paths_node.fail(
+            ConfigErrorKind::EmptyList,
+            "the list of paths is empty",
+            "add a [[path]] with channels = […] and one channel model",
+        ));
+    }
+
+    let mut owners = ChannelOwners::new(link.channel_count);
+    let mut paths = Vec::with_capacity(path_nodes.len());
+    for (index, node) in path_nodes.iter().enumerate() {
+        let draft = read_path(node, index, &link)?;
+        owners.claim(index, &draft)?;
+        paths.push(draft.path);
+    }
+    owners.check_all_covered(&link)?;
+
+    Ok(Link {
+        source: source.map(Path::to_path_buf),
+        sample_rate: link.sample_rate,
+        channel_count: link.channel_count,
+        paths,
+        // The schema has no keys for devices or engine guards yet: defaults.
+        runtime: RuntimeSettings::default(),
+    })
+}
+
+/// Reads the file at `path` and parses it with [`parse_link`]. A file that is missing, a
+/// directory, unreadable or not UTF-8 is a [`ConfigError`] too.
+pub fn load_link(path: &Path) -> Result<Link, ConfigError> {
+    let fail = |kind, problem: String, help: &str| {
+        let mut e = ConfigError::new(kind, problem, help);
+        e.file = Some(path.to_path_buf());
+        e
+    };
+    if path.is_dir() {
+        return Err(fail(
+            ConfigErrorKind::IsDirectory,
+            "this is a directory, not a config file".into(),
+            "name a .toml file, e.g. configs/echo_line.toml",
+        ));
+    }
+    let bytes = std::fs::read(path).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => fail(
+            ConfigErrorKind::FileNotFound,
+            "no such file".into(),
+            "check the path and the current directory",
+        ),
+        std::io::ErrorKind::PermissionDenied => fail(
+            ConfigErrorKind::FileNotReadable,
+            "permission to read the file was denied".into(),
+            "make the file readable by this user",
+        ),
+        _ => fail(
+            ConfigErrorKind::FileNotReadable,
+            format!("the file could not be read: {e}"),
+            "check that the file is a readable regular file",
+        ),
+    })?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let bytes = e.as_bytes();
+        let valid = e.utf8_error().valid_up_to();
+        // The valid prefix is text, so its lines and characters place the bad byte.
+        let before = std::str::from_utf8(&bytes[..valid]).unwrap_or("");
+        let line = before.matches('\n').count() + 1;
+        let column = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        let mut err = fail(
+            ConfigErrorKind::NotUtf8,
+            format!("the file is not UTF-8 text (byte 0x{:02x})", bytes[valid]),
+            "save the config as UTF-8 text",
+        );
+        err.line = Some(line);
+        err.column = Some(column);
+        err
+    })?;
+    parse_link(&text, Some(path))
+}

@@ -10,7 +10,7 @@ mod policy;
 mod runtime;
 mod transfer;
 
-pub use error::ConfigError;
+pub use error::{ConfigError, ConfigErrorKind};
 pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
 pub use policy::{
     FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,

@@ -1,0 +1,100 @@
+//! The `[link]` table: sample rate, channel count, circle tolerance, coefficient precision.
+
+use super::schema::{CHANNEL_COUNT, CIRCLE_TOLERANCE, LINK, LINK_TABLE, PRECISION, SAMPLE_RATE_HZ};
+use super::tree::{Node, Table};
+use crate::model::error::{ConfigError, ConfigErrorKind};
+use crate::model::{
+    CoefficientPrecision, DEFAULT_CIRCLE_TOLERANCE, MAX_CHANNELS, SAMPLE_RATE_RANGE,
+};
+
+/// Largest circle tolerance accepted: beyond it, zeros a tenth of the way to the centre would
+/// count as "on the circle", which no longer means anything.
+const MAX_CIRCLE_TOLERANCE: f64 = 0.1;
+
+/// What `[link]` says, checked.
+pub(crate) struct LinkSettings<'a> {
+    pub sample_rate: f64,
+    pub channel_count: usize,
+    pub circle_tolerance: f64,
+    pub precision: CoefficientPrecision,
+    /// Where `channel_count` is written, for errors about channels no path covers.
+    pub channel_count_node: Node<'a>,
+}
+
+pub(crate) fn read_link<'a>(root: &Table<'a>) -> Result<LinkSettings<'a>, ConfigError> {
+    let link = root
+        .get(LINK)
+        .ok_or_else(|| {
+            root.missing(
+                LINK,
+                ConfigErrorKind::MissingKey,
+                "the config has no [link] table",
+                "begin the file with [link] giving sample_rate_hz and channel_count",
+            )
+        })?
+        .table(&LINK_TABLE)?;
+
+    let rate_node = link.require(
+        SAMPLE_RATE_HZ,
+        "add sample_rate_hz = the link's sample rate in Hz, e.g. 48000",
+    )?;
+    let sample_rate = rate_node.number()?;
+    let (low, high) = SAMPLE_RATE_RANGE;
+    if !(low..=high).contains(&sample_rate) {
+        return Err(rate_node.fail(
+            ConfigErrorKind::OutOfRange,
+            format!("a sample rate of {sample_rate} Hz is outside the supported {low}..={high} Hz"),
+            "give the rate in Hz (48000, not 48)",
+        ));
+    }
+
+    let count_node = link.require(
+        CHANNEL_COUNT,
+        "add channel_count = the number of audio channels the link carries, e.g. 2",
+    )?;
+    let count = count_node.integer()?;
+    if count < 1 || count > MAX_CHANNELS as i64 {
+        return Err(count_node.fail(
+            ConfigErrorKind::OutOfRange,
+            format!("channel_count must be between 1 and {MAX_CHANNELS}, not {count}"),
+            "count the audio channels the link carries (1 for mono, 2 for stereo)",
+        ));
+    }
+
+    let circle_tolerance = match link.get(CIRCLE_TOLERANCE) {
+        None => DEFAULT_CIRCLE_TOLERANCE,
+        Some(node) => {
+            let value = node.number()?;
+            if !(value > 0.0 && value < MAX_CIRCLE_TOLERANCE) {
+                return Err(node.fail(
+                    ConfigErrorKind::OutOfRange,
+                    format!(
+                        "circle_tolerance must be above 0 and below {MAX_CIRCLE_TOLERANCE}, \
+                         not {value}"
+                    ),
+                    format!(
+                        "it is a distance in radius from the unit circle; leave it out for \
+                         the default {DEFAULT_CIRCLE_TOLERANCE:e}"
+                    ),
+                ));
+            }
+            value
+        }
+    };
+
+    let precision = match link.get(PRECISION) {
+        None => CoefficientPrecision::F32,
+        Some(node) => node.choice(&[
+            ("f32", CoefficientPrecision::F32),
+            ("f64", CoefficientPrecision::F64),
+        ])?,
+    };
+
+    Ok(LinkSettings {
+        sample_rate,
+        channel_count: count as usize,
+        circle_tolerance,
+        precision,
+        channel_count_node: count_node,
+    })
+}

@@ -1,0 +1,99 @@
+//! The config's key names and which table each belongs to: the one place they are spelt.
+//!
+//! Readers look keys up through these constants, and the unknown-key check compares a stray key
+//! against them (to suggest the nearest valid key, or to say which table it belongs in).
+
+/// One kind of table in the config: how to name it to a person and which keys it may hold.
+#[derive(Debug)]
+pub(crate) struct TableSchema {
+    /// How the table is named in messages, e.g. "[link]".
+    pub name: &'static str,
+    pub keys: &'static [&'static str],
+}
+
+pub(crate) const LINK: &str = "link";
+pub(crate) const PATH: &str = "path";
+pub(crate) const TOP: TableSchema = TableSchema {
+    name: "the top level",
+    keys: &[LINK, PATH],
+};
+
+pub(crate) const SAMPLE_RATE_HZ: &str = "sample_rate_hz";
+pub(crate) const CHANNEL_COUNT: &str = "channel_count";
+pub(crate) const CIRCLE_TOLERANCE: &str = "circle_tolerance";
+pub(crate) const PRECISION: &str = "precision";
+pub(crate) const LINK_TABLE: TableSchema = TableSchema {
+    name: "[link]",
+    keys: &[SAMPLE_RATE_HZ, CHANNEL_COUNT, CIRCLE_TOLERANCE, PRECISION],
+};
+
+pub(crate) const LABEL: &str = "label";
+pub(crate) const CHANNELS: &str = "channels";
+pub(crate) const STRUCTURE: &str = "structure";
+pub(crate) const DIFFERENCE_EQUATION: &str = "difference_equation";
+pub(crate) const ROOTS: &str = "roots";
+pub(crate) const ECHOES: &str = "echoes";
+pub(crate) const SECTIONS: &str = "sections";
+pub(crate) const PATH_TABLE: TableSchema = TableSchema {
+    name: "[[path]]",
+    keys: &[
+        LABEL,
+        CHANNELS,
+        STRUCTURE,
+        DIFFERENCE_EQUATION,
+        ROOTS,
+        ECHOES,
+        SECTIONS,
+    ],
+};
+
+pub(crate) const B: &str = "b";
+pub(crate) const A: &str = "a";
+pub(crate) const DIFFERENCE_EQUATION_TABLE: TableSchema = TableSchema {
+    name: "difference_equation",
+    keys: &[B, A],
+};
+
+pub(crate) const ZEROS: &str = "zeros";
+pub(crate) const POLES: &str = "poles";
+pub(crate) const GAIN: &str = "gain";
+pub(crate) const CONJUGATES: &str = "conjugates";
+pub(crate) const ROOTS_TABLE: TableSchema = TableSchema {
+    name: "[path.roots]",
+    keys: &[ZEROS, POLES, GAIN, CONJUGATES],
+};
+
+pub(crate) const RADIUS: &str = "radius";
+pub(crate) const ANGLE_DEG: &str = "angle_deg";
+pub(crate) const ANGLE_RAD: &str = "angle_rad";
+pub(crate) const POLAR_TABLE: TableSchema = TableSchema {
+    name: "a zero or pole in polar form",
+    keys: &[RADIUS, ANGLE_DEG, ANGLE_RAD],
+};
+
+pub(crate) const DIRECT_GAIN: &str = "direct_gain";
+pub(crate) const DIRECT_DELAY_SAMPLES: &str = "direct_delay_samples";
+pub(crate) const TAPS: &str = "taps";
+pub(crate) const ECHOES_TABLE: TableSchema = TableSchema {
+    name: "[path.echoes]",
+    keys: &[DIRECT_GAIN, DIRECT_DELAY_SAMPLES, TAPS],
+};
+
+pub(crate) const DELAY_SAMPLES: &str = "delay_samples";
+pub(crate) const DELAY_MS: &str = "delay_ms";
+pub(crate) const TAP_TABLE: TableSchema = TableSchema {
+    name: "an echo tap",
+    keys: &[DELAY_SAMPLES, DELAY_MS, GAIN],
+};
+
+/// Every table kind, for telling the user where a misplaced key belongs.
+pub(crate) const ALL_TABLES: [&TableSchema; 8] = [
+    &TOP,
+    &LINK_TABLE,
+    &PATH_TABLE,
+    &DIFFERENCE_EQUATION_TABLE,
+    &ROOTS_TABLE,
+    &POLAR_TABLE,
+    &ECHOES_TABLE,
+    &TAP_TABLE,
+];
