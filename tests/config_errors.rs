@@ -107,6 +107,23 @@ const CATALOGUE: &[Case] = &[
     case("section_wrong_length", WrongLength, 8, Some("path[0].sections[0]"), "5 numbers, not 6"),
     case("empty_sections", EmptyList, 8, Some("path[0].sections"), "no sections"),
     case("too_many_sections", TooLong, 8, Some("path[0].sections"), "513 sections"),
+    // The inverse policy ([path.inverse]).
+    case("inverse_contradictory_fir", ConflictingKeys, 12, Some("path[0].inverse.fir_taps"), "contradict each other"),
+    case("inverse_budget_below_one_sample", OutOfRange, 12, Some("path[0].inverse.fir_latency_budget_ms"), "less than one sample"),
+    case("inverse_cap_zero", OutOfRange, 11, Some("path[0].inverse.boost_cap_db"), "must be above 0 dB"),
+    case("inverse_cap_negative", OutOfRange, 11, Some("path[0].inverse.boost_cap_db"), "-6 dB is not usable"),
+    case("inverse_fir_too_long", OutOfRange, 12, Some("path[0].inverse.fir_taps"), "from 2 to 4096"),
+    case("inverse_regularization_negative", OutOfRange, 12, Some("path[0].inverse.fir_regularization"), "0 or more"),
+    case("inverse_delay_and_budget", ConflictingKeys, 13, Some("path[0].inverse.fir_latency_budget_ms"), "keep one"),
+    case("inverse_bad_method", BadChoice, 11, Some("path[0].inverse.method"), "did you mean \"minimum_phase\"?"),
+    case("inverse_unity_beyond_nyquist", OutOfRange, 11, Some("path[0].inverse.unity_at_hz"), "below half the sample rate"),
+    case("inverse_fallback_not_bool", WrongType, 11, Some("path[0].inverse.structure_fallback"), "true or false"),
+    // The live service's settings ([audio], [engine]).
+    case("engine_bad_clip", BadChoice, 11, Some("engine.clip"), "did you mean \"soft_limit\"?"),
+    case("engine_crossfade_zero", OutOfRange, 11, Some("engine.crossfade_ms"), "from 0.1 to 2000 ms"),
+    case("engine_unknown_key", UnknownKey, 11, Some("engine.crosfade_ms"), "did you mean `crossfade_ms`?"),
+    case("audio_buffer_too_small", OutOfRange, 11, Some("audio.buffer_frames"), "from 16 to 16384"),
+    case("audio_empty_device", OutOfRange, 11, Some("audio.output_device"), "device name is empty"),
 ];
 
 fn fixture(name: &str) -> PathBuf {

@@ -3,15 +3,16 @@
 use super::difference_equation::read_difference_equation;
 use super::echoes::read_echoes;
 use super::finish_channel::{finish_channel, inverse_order};
+use super::inverse_table::read_inverse;
 use super::link_table::LinkSettings;
 use super::schema::{
-    CHANNELS, DIFFERENCE_EQUATION, ECHOES, LABEL, PATH_TABLE, ROOTS, SECTIONS, STRUCTURE,
+    CHANNELS, DIFFERENCE_EQUATION, ECHOES, INVERSE, LABEL, PATH_TABLE, ROOTS, SECTIONS, STRUCTURE,
 };
 use super::sections::read_sections;
 use super::tree::Node;
 use super::zeros_poles::read_zeros_poles;
 use crate::model::error::{ConfigError, ConfigErrorKind};
-use crate::model::{InversePolicy, ModelForm, Path, Structure};
+use crate::model::{ModelForm, Path, Structure};
 
 /// The four ways to describe a path's channel; a path has exactly one of them.
 const MODELS: [(&str, ModelForm); 4] = [
@@ -135,6 +136,8 @@ pub(crate) fn read_path<'a>(
         Structure::DirectForm2T
     });
 
+    let inverse = read_inverse(table.get(INVERSE), link.sample_rate)?;
+
     Ok(PathDraft {
         path: Path {
             label,
@@ -144,8 +147,7 @@ pub(crate) fn read_path<'a>(
             structure,
             precision: link.precision,
             circle_tolerance: link.circle_tolerance,
-            // The schema has no keys for the inverse policy yet: every path gets the default.
-            inverse: InversePolicy::default(),
+            inverse,
         },
         channel_nodes,
     })

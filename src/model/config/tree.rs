@@ -264,6 +264,14 @@ impl<'a> Node<'a> {
         }
     }
 
+    /// `true` or `false`.
+    pub(crate) fn boolean(&self) -> Result<bool, ConfigError> {
+        match self.value {
+            Some(DeValue::Boolean(b)) => Ok(*b),
+            _ => Err(self.wrong_type("true or false", "write true or false, without quotes")),
+        }
+    }
+
     /// One of a fixed set of strings, mapped to its meaning.
     pub(crate) fn choice<T: Copy>(&self, options: &[(&str, T)]) -> Result<T, ConfigError> {
         let names: Vec<String> = options.iter().map(|(n, _)| format!("\"{n}\"")).collect();
