@@ -133,7 +133,7 @@ fn read_fir(
         (None, Some(n)) => {
             let ms = n.number()?;
             let one_sample_ms = 1000.0 / sample_rate;
-            if !(ms >= one_sample_ms) {
+            if ms.is_nan() || ms < one_sample_ms {
                 return Err(n.fail(
                     ConfigErrorKind::OutOfRange,
                     format!(
