@@ -176,11 +176,14 @@ pub(crate) fn supported_configs(
     })
 }
 
-/// One line per sample format: channel counts, sample rates and period sizes on offer, and
-/// whether this tool can run that format.
+/// One line per sample format this tool runs (channel counts, sample rates and the span of
+/// period sizes on offer), then one line naming the other formats the device has.
 pub(crate) fn summarize_configs(ranges: &[SupportedStreamConfigRange]) -> Vec<String> {
     let formats: BTreeSet<cpal::SampleFormat> = ranges.iter().map(|r| r.sample_format()).collect();
-    formats
+    let (runnable, others): (Vec<cpal::SampleFormat>, Vec<cpal::SampleFormat>) = formats
+        .into_iter()
+        .partition(|f| DeviceFormat::from_cpal(*f).is_some());
+    let mut lines: Vec<String> = runnable
         .into_iter()
         .map(|format| {
             let of_format: Vec<&SupportedStreamConfigRange> = ranges
@@ -192,29 +195,37 @@ pub(crate) fn summarize_configs(ranges: &[SupportedStreamConfigRange]) -> Vec<St
                 .iter()
                 .map(|r| (r.min_sample_rate(), r.max_sample_rate()))
                 .collect();
-            let periods: BTreeSet<(u32, u32)> = of_format
+            // The period range differs with the channel count (it is a byte limit); the span
+            // over all of them is what a listing can usefully show.
+            let periods = of_format
                 .iter()
                 .filter_map(|r| match r.buffer_size() {
                     SupportedBufferSize::Range { min, max } => Some((*min, *max)),
                     SupportedBufferSize::Unknown => None,
                 })
-                .collect();
-            let runnable = if DeviceFormat::from_cpal(format).is_some() {
-                ""
-            } else {
-                " (format not run by this tool)"
-            };
+                .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)));
             let mut line = format!(
-                "{format}{runnable}: {} channel(s) at {} Hz",
+                "{format}: {} channel(s) at {} Hz",
                 compress(&channels),
                 join_ranges(&rates),
             );
-            if !periods.is_empty() {
-                line.push_str(&format!(", period {} frames", join_ranges(&periods)));
+            if let Some(span) = periods {
+                line.push_str(&format!(
+                    ", period {} frames",
+                    join_ranges(&BTreeSet::from([span]))
+                ));
             }
             line
         })
-        .collect()
+        .collect();
+    if !others.is_empty() {
+        let names: Vec<String> = others.iter().map(|f| f.to_string()).collect();
+        lines.push(format!(
+            "also {} (formats this tool does not run)",
+            names.join(", ")
+        ));
+    }
+    lines
 }
 
 /// "1–8" for a run of consecutive counts, "1, 2, 6" otherwise.
@@ -263,19 +274,26 @@ mod tests {
 
     #[test]
     fn summary_groups_by_format_and_marks_what_cannot_run() {
-        let ranges = [
+        let mut ranges = vec![
             range(1, 44_100, 44_100, cpal::SampleFormat::I16),
             range(2, 44_100, 44_100, cpal::SampleFormat::I16),
             range(2, 48_000, 48_000, cpal::SampleFormat::I16),
             range(2, 8_000, 192_000, cpal::SampleFormat::U8),
+            range(2, 8_000, 192_000, cpal::SampleFormat::F64),
         ];
+        ranges[0] = SupportedStreamConfigRange::new(
+            1,
+            44_100,
+            44_100,
+            SupportedBufferSize::Range { min: 32, max: 8192 },
+            cpal::SampleFormat::I16,
+        );
         let lines = summarize_configs(&ranges);
         assert_eq!(
             lines,
             vec![
-                "i16: 1, 2 channel(s) at 44100, 48000 Hz, period 64–4096 frames".to_string(),
-                "u8 (format not run by this tool): 2 channel(s) at 8000–192000 Hz, period 64–4096 frames"
-                    .to_string(),
+                "i16: 1, 2 channel(s) at 44100, 48000 Hz, period 32–8192 frames".to_string(),
+                "also u8, f64 (formats this tool does not run)".to_string(),
             ]
         );
     }
