@@ -5,6 +5,7 @@
 mod demo;
 mod error;
 pub mod error_metric;
+pub mod live;
 pub mod offline;
 pub mod paced_link;
 pub mod programme;
