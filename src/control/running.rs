@@ -6,6 +6,7 @@ use std::time::{Duration, Instant};
 use super::status::{AudioStatus, SimulatedStatus};
 use super::ServiceError;
 use crate::engine::{engine_pair, EngineControl, EngineSettings, Equalizer};
+use crate::io::live::{start_duplex, DeviceRequest, DuplexStreams};
 use crate::io::paced_link::{Alignment, PacedLink};
 use crate::model::{AudioSettings, EngineOptions, Link};
 use crate::numeric::poly::leading_zeros;
@@ -25,6 +26,7 @@ pub enum AudioSource {
 }
 
 enum Driver {
+    Devices(DuplexStreams),
     Simulated(PacedLink),
 }
 
@@ -71,9 +73,25 @@ impl RunningAudio {
                 (Driver::Simulated(paced), description, Some(block))
             }
             AudioSource::Devices => {
-                return Err(ServiceError::Audio(
-                    "live devices are not available in this build; run with --simulate".into(),
-                ))
+                let request = DeviceRequest {
+                    input: link.runtime.audio.input_device.clone(),
+                    output: link.runtime.audio.output_device.clone(),
+                    sample_rate: link.sample_rate.round() as u32,
+                    channels: link.channel_count as u16,
+                    buffer_frames: link.runtime.audio.buffer_frames,
+                };
+                let streams = start_duplex(&request, engine, control.stats())
+                    .map_err(|e| ServiceError::Audio(e.to_string()))?;
+                let config = streams.config().clone();
+                if config.ring_undersized() {
+                    log::warn!(
+                        "the devices run longer periods than requested; expect under- or \
+                         overruns, or set [audio] buffer_frames to {}",
+                        config.input_period_frames.max(config.output_period_frames)
+                    );
+                }
+                let block = config.input_period_frames as usize;
+                (Driver::Devices(streams), config.to_string(), Some(block))
             }
         };
         Ok(Self {
@@ -112,8 +130,12 @@ impl RunningAudio {
     }
 
     pub fn status(&self, restarts: u64) -> AudioStatus {
-        let kind = match self.driver {
-            Driver::Simulated(_) => "simulated link",
+        let (kind, stream_errors) = match &self.driver {
+            Driver::Devices(d) => {
+                let e = d.stream_errors();
+                ("devices", e.input.count + e.output.count)
+            }
+            Driver::Simulated(_) => ("simulated link", 0),
         };
         AudioStatus {
             kind: kind.to_string(),
@@ -122,13 +144,14 @@ impl RunningAudio {
             channels: self.channels,
             block_frames: self.block_frames,
             block_period_us: self.block_frames.map(|b| 1e6 * b as f64 / self.sample_rate),
-            stream_errors: 0,
+            stream_errors,
             restarts,
         }
     }
 
     pub fn simulated(&self) -> Option<SimulatedStatus> {
         match &self.driver {
+            Driver::Devices(_) => None,
             Driver::Simulated(p) => {
                 let fig = p.figures();
                 Some(SimulatedStatus {
@@ -147,8 +170,9 @@ impl RunningAudio {
         while !self.control.fade_out_done() && started.elapsed() < timeout {
             std::thread::sleep(Duration::from_millis(5));
         }
-        match &mut self.driver {
-            Driver::Simulated(p) => p.stop(),
+        match self.driver {
+            Driver::Devices(d) => d.stop(),
+            Driver::Simulated(mut p) => p.stop(),
         }
         self.control.collect_returned();
     }

@@ -59,6 +59,8 @@ struct Service {
     audio: Option<RunningAudio>,
     reloads: ReloadStatus,
     restarts: u64,
+    /// Stream errors already logged.
+    seen_stream_errors: u64,
     started: Instant,
     document: SharedDocument,
 }
@@ -105,6 +107,7 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         audio: Some(audio),
         reloads: ReloadStatus::default(),
         restarts: 0,
+        seen_stream_errors: 0,
         started: Instant::now(),
         document,
     };
@@ -183,6 +186,7 @@ impl Service {
             if let Some(old) = self.audio.take() {
                 old.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
             }
+            self.seen_stream_errors = 0;
             match RunningAudio::start(&link, &plan, generation, &self.source) {
                 Ok(audio) => self.audio = Some(audio),
                 Err(e) => {
@@ -242,6 +246,15 @@ impl Service {
             return;
         };
         audio.control.collect_returned();
+        let errors = audio.status(self.restarts).stream_errors;
+        if errors > self.seen_stream_errors {
+            warn!(
+                "the audio device reported {} more stream error(s) ({} in all)",
+                errors - self.seen_stream_errors,
+                errors
+            );
+            self.seen_stream_errors = errors;
+        }
         for event in audio.control.drain_events() {
             match event {
                 EngineEvent::SwapStarted { generation } => {
