@@ -79,7 +79,9 @@ impl LinkPlan {
 
     /// The plan of the path that models audio channel `channel`.
     pub fn path_for_channel(&self, channel: usize) -> Option<&PathPlan> {
-        self.paths.iter().find(|p| p.path.channels.contains(&channel))
+        self.paths
+            .iter()
+            .find(|p| p.path.channels.contains(&channel))
     }
 }
 

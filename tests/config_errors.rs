@@ -40,6 +40,7 @@ const CATALOGUE: &[Case] = &[
     case("not_utf8", NotUtf8, 7, None, "not UTF-8"),
     case("syntax_missing_value", Syntax, 4, None, "the value is missing"),
     case("duplicate_key", Syntax, 5, None, "duplicate key"),
+    case("unquoted_text", Syntax, 5, None, "write precision = \"f64\""),
     // Keys missing, unknown or misplaced.
     case("missing_link", MissingKey, 1, Some("link"), "no [link] table"),
     case("missing_sample_rate", MissingKey, 2, Some("link.sample_rate_hz"), "`sample_rate_hz` is missing"),
@@ -99,12 +100,30 @@ const CATALOGUE: &[Case] = &[
     case("tap_rounds_to_no_delay", OutOfRange, 10, Some("path[0].echoes.taps[0].delay_ms"), "under half a sample"),
     case("direct_delay_negative", OutOfRange, 10, Some("path[0].echoes.direct_delay_samples"), "negative delay"),
     case("echo_delay_too_long", TooLong, 11, Some("path[0].echoes.taps[0].delay_ms"), "1224 samples"),
+    case("echo_delay_huge", TooLong, 11, Some("path[0].echoes.taps[0].delay_samples"), "longest supported is 1024"),
     case("echoes_add_to_nothing", AllZero, 9, Some("path[0].echoes"), "no signal"),
     // Sections.
     case("section_a0_zero", LeadingZero, 10, Some("path[0].sections[1]"), "a0 (the fourth number) is zero"),
     case("section_wrong_length", WrongLength, 8, Some("path[0].sections[0]"), "5 numbers, not 6"),
     case("empty_sections", EmptyList, 8, Some("path[0].sections"), "no sections"),
     case("too_many_sections", TooLong, 8, Some("path[0].sections"), "513 sections"),
+    // The inverse policy ([path.inverse]).
+    case("inverse_contradictory_fir", ConflictingKeys, 12, Some("path[0].inverse.fir_taps"), "contradict each other"),
+    case("inverse_budget_below_one_sample", OutOfRange, 12, Some("path[0].inverse.fir_latency_budget_ms"), "less than one sample"),
+    case("inverse_cap_zero", OutOfRange, 11, Some("path[0].inverse.boost_cap_db"), "must be above 0 dB"),
+    case("inverse_cap_negative", OutOfRange, 11, Some("path[0].inverse.boost_cap_db"), "-6 dB is not usable"),
+    case("inverse_fir_too_long", OutOfRange, 12, Some("path[0].inverse.fir_taps"), "from 2 to 4096"),
+    case("inverse_regularization_negative", OutOfRange, 12, Some("path[0].inverse.fir_regularization"), "0 or more"),
+    case("inverse_delay_and_budget", ConflictingKeys, 13, Some("path[0].inverse.fir_latency_budget_ms"), "keep one"),
+    case("inverse_bad_method", BadChoice, 11, Some("path[0].inverse.method"), "did you mean \"minimum_phase\"?"),
+    case("inverse_unity_beyond_nyquist", OutOfRange, 11, Some("path[0].inverse.unity_at_hz"), "below half the sample rate"),
+    case("inverse_fallback_not_bool", WrongType, 11, Some("path[0].inverse.structure_fallback"), "true or false"),
+    // The live service's settings ([audio], [engine]).
+    case("engine_bad_clip", BadChoice, 11, Some("engine.clip"), "did you mean \"soft_limit\"?"),
+    case("engine_crossfade_zero", OutOfRange, 11, Some("engine.crossfade_ms"), "from 0.1 to 2000 ms"),
+    case("engine_unknown_key", UnknownKey, 11, Some("engine.crosfade_ms"), "did you mean `crossfade_ms`?"),
+    case("audio_buffer_too_small", OutOfRange, 11, Some("audio.buffer_frames"), "from 16 to 16384"),
+    case("audio_empty_device", OutOfRange, 11, Some("audio.output_device"), "device name is empty"),
 ];
 
 fn fixture(name: &str) -> PathBuf {

@@ -108,7 +108,10 @@ mod tests {
             let mut frame = [3.0, -1.5, f32::NAN, 0.2];
             let c = g.guard_frame(&mut frame);
             assert_eq!(c.clipped, 3, "{policy:?}");
-            assert!(frame.iter().all(|y| y.abs() <= FULL_SCALE), "{policy:?}: {frame:?}");
+            assert!(
+                frame.iter().all(|y| y.abs() <= FULL_SCALE),
+                "{policy:?}: {frame:?}"
+            );
             assert_eq!(frame[2], 0.0);
         }
     }

@@ -122,7 +122,9 @@ impl EngineControl {
 
     /// Asks the engine to fade its output to silence (before stopping).
     pub fn request_fade_out(&self) {
-        self.shared.fade_out_requested.store(true, Ordering::Release);
+        self.shared
+            .fade_out_requested
+            .store(true, Ordering::Release);
     }
 
     /// True once the requested fade-out is complete.

@@ -85,11 +85,7 @@ impl Engine {
         let used = frames * channels;
         output[used..].fill(0.0);
         self.retry_pending_returns();
-        if self
-            .ends
-            .shared
-            .fade_out_requested
-            .load(Ordering::Acquire)
+        if self.ends.shared.fade_out_requested.load(Ordering::Acquire)
             && self.fade_out_left.is_none()
         {
             self.fade_out_left = Some(self.settings.fade_out_samples);
@@ -288,7 +284,9 @@ impl Engine {
         self.current_over = 0;
         let stats = &self.ends.stats;
         stats.swaps_completed.fetch_add(1, Ordering::Relaxed);
-        stats.running_generation.store(generation, Ordering::Relaxed);
+        stats
+            .running_generation
+            .store(generation, Ordering::Relaxed);
         self.emit(EngineEvent::SwapCompleted { generation });
     }
 

@@ -1,7 +1,7 @@
 use serde::Serialize;
 
-pub use crate::model::{ClipPolicy, Fallback};
 use crate::model::EngineOptions;
+pub use crate::model::{ClipPolicy, Fallback};
 
 /// How the audio-thread engine behaves; every time is in samples, converted once from the
 /// configuration on the control side.

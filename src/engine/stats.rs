@@ -106,7 +106,8 @@ impl EngineStats {
             ((micros.log2() * 4.0) as usize).min(TIME_BUCKETS - 1)
         };
         self.callback_time[bucket].fetch_add(1, Ordering::Relaxed);
-        self.callback_time_max_ns.fetch_max(nanos, Ordering::Relaxed);
+        self.callback_time_max_ns
+            .fetch_max(nanos, Ordering::Relaxed);
     }
 
     /// Raises the per-channel peak meters.

@@ -5,7 +5,9 @@
 mod demo;
 mod error;
 pub mod error_metric;
+pub mod live;
 pub mod offline;
+pub mod paced_link;
 pub mod programme;
 pub mod simulated_link;
 pub mod wav;

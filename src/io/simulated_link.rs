@@ -118,6 +118,7 @@ mod tests {
                     inverse: InversePolicy::default(),
                 })
                 .collect(),
+            runtime: Default::default(),
         }
     }
 

@@ -20,6 +20,31 @@
 //! # [path.roots]   zeros = […], poles = […], gain = 1.0, conjugates = "require" | "add"
 //! # [path.echoes]  direct_gain, direct_delay_samples, taps = [{ delay_samples | delay_ms, gain }]
 //! # sections = [[b0, b1, b2, a0, a1, a2], …]
+//!
+//! [path.inverse]                # optional; how to build the inverse (defaults shown)
+//! method = "minimum_phase"      # "exact" | "minimum_phase" | "least_squares_fir"
+//! boost_cap_db = 20             # > 0 and ≤ 60
+//! unity_at_hz = 1000            # optional: hold the cascade at 0 dB here
+//! structure_fallback = true     # switch to a sturdier structure if rounding demands it
+//! fir_taps = 256                # least_squares_fir only, 2..=MAX_FIR_TAPS
+//! fir_latency_budget_ms = 10    # least_squares_fir only: search the best delay up to this …
+//! fir_delay_samples = 32        # … or fix it (not both)
+//! fir_regularization = 0        # least_squares_fir only, ≥ 0
+//!
+//! [audio]                       # optional; devices of the live service
+//! input_device = "default"      # "default", a device id, or part of a device name
+//! output_device = "default"
+//! buffer_frames = 256           # optional, 16..=16384
+//!
+//! [engine]                      # optional; guards of the live service (defaults shown)
+//! crossfade_ms = 20
+//! fade_in_ms = 50
+//! fade_out_ms = 50
+//! clip = "soft_limit"           # "hard_limit" | "soft_limit" | "gain_reduction"
+//! instability_margin_db = 12
+//! instability_hold_ms = 10
+//! fallback = "last_good"        # "last_good" | "bypass"
+//! gain_release_ms = 300
 //! ```
 //!
 //! A zero or pole is written `0.3`, `[re, im]`, `{ radius = 0.9, angle_deg = 30 }` or
@@ -36,13 +61,16 @@ mod conjugates;
 mod difference_equation;
 mod echoes;
 mod finish_channel;
+mod inverse_table;
 mod line_index;
 mod link_table;
 #[cfg(test)]
 mod parse_tests;
 mod path_table;
+mod runtime_tables;
 mod schema;
 mod sections;
+mod syntax_error;
 mod tree;
 mod zeros_poles;
 
@@ -53,6 +81,7 @@ use toml::de::DeTable;
 use self::channel_owners::ChannelOwners;
 use self::link_table::read_link;
 use self::path_table::read_path;
+use self::runtime_tables::read_runtime;
 use self::schema::{PATH, TOP};
 use self::tree::Ctx;
 use super::error::{ConfigError, ConfigErrorKind};
@@ -99,13 +128,14 @@ pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError
         paths.push(draft.path);
     }
     owners.check_all_covered(&link)?;
+    let runtime = read_runtime(&root)?;
 
     Ok(Link {
         source: source.map(Path::to_path_buf),
         sample_rate: link.sample_rate,
         channel_count: link.channel_count,
         paths,
-        runtime: crate::model::RuntimeSettings::default(),
+        runtime,
     })
 }
 

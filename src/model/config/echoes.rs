@@ -129,7 +129,7 @@ fn read_tap(
     if delay < 1 {
         return Err(not_after_direct(&delay_node, &format!("{delay} samples")));
     }
-    let at = direct_delay as i64 + delay;
+    let at = (direct_delay as i64).saturating_add(delay);
     if at > MAX_ORDER as i64 {
         return Err(delay_node.fail(
             ConfigErrorKind::TooLong,

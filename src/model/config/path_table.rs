@@ -3,9 +3,10 @@
 use super::difference_equation::read_difference_equation;
 use super::echoes::read_echoes;
 use super::finish_channel::{finish_channel, inverse_order};
+use super::inverse_table::read_inverse;
 use super::link_table::LinkSettings;
 use super::schema::{
-    CHANNELS, DIFFERENCE_EQUATION, ECHOES, LABEL, PATH_TABLE, ROOTS, SECTIONS, STRUCTURE,
+    CHANNELS, DIFFERENCE_EQUATION, ECHOES, INVERSE, LABEL, PATH_TABLE, ROOTS, SECTIONS, STRUCTURE,
 };
 use super::sections::read_sections;
 use super::tree::Node;
@@ -135,6 +136,8 @@ pub(crate) fn read_path<'a>(
         Structure::DirectForm2T
     });
 
+    let inverse = read_inverse(table.get(INVERSE), link.sample_rate)?;
+
     Ok(PathDraft {
         path: Path {
             label,
@@ -144,7 +147,7 @@ pub(crate) fn read_path<'a>(
             structure,
             precision: link.precision,
             circle_tolerance: link.circle_tolerance,
-            inverse: crate::model::InversePolicy::default(),
+            inverse,
         },
         channel_nodes,
     })

@@ -13,9 +13,11 @@ pub(crate) struct TableSchema {
 
 pub(crate) const LINK: &str = "link";
 pub(crate) const PATH: &str = "path";
+pub(crate) const AUDIO: &str = "audio";
+pub(crate) const ENGINE: &str = "engine";
 pub(crate) const TOP: TableSchema = TableSchema {
     name: "the top level",
-    keys: &[LINK, PATH],
+    keys: &[LINK, PATH, AUDIO, ENGINE],
 };
 
 pub(crate) const SAMPLE_RATE_HZ: &str = "sample_rate_hz";
@@ -34,6 +36,7 @@ pub(crate) const DIFFERENCE_EQUATION: &str = "difference_equation";
 pub(crate) const ROOTS: &str = "roots";
 pub(crate) const ECHOES: &str = "echoes";
 pub(crate) const SECTIONS: &str = "sections";
+pub(crate) const INVERSE: &str = "inverse";
 pub(crate) const PATH_TABLE: TableSchema = TableSchema {
     name: "[[path]]",
     keys: &[
@@ -44,6 +47,59 @@ pub(crate) const PATH_TABLE: TableSchema = TableSchema {
         ROOTS,
         ECHOES,
         SECTIONS,
+        INVERSE,
+    ],
+};
+
+pub(crate) const METHOD: &str = "method";
+pub(crate) const BOOST_CAP_DB: &str = "boost_cap_db";
+pub(crate) const UNITY_AT_HZ: &str = "unity_at_hz";
+pub(crate) const STRUCTURE_FALLBACK: &str = "structure_fallback";
+pub(crate) const FIR_TAPS: &str = "fir_taps";
+pub(crate) const FIR_DELAY_SAMPLES: &str = "fir_delay_samples";
+pub(crate) const FIR_LATENCY_BUDGET_MS: &str = "fir_latency_budget_ms";
+pub(crate) const FIR_REGULARIZATION: &str = "fir_regularization";
+pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
+    name: "[path.inverse]",
+    keys: &[
+        METHOD,
+        BOOST_CAP_DB,
+        UNITY_AT_HZ,
+        STRUCTURE_FALLBACK,
+        FIR_TAPS,
+        FIR_DELAY_SAMPLES,
+        FIR_LATENCY_BUDGET_MS,
+        FIR_REGULARIZATION,
+    ],
+};
+
+pub(crate) const INPUT_DEVICE: &str = "input_device";
+pub(crate) const OUTPUT_DEVICE: &str = "output_device";
+pub(crate) const BUFFER_FRAMES: &str = "buffer_frames";
+pub(crate) const AUDIO_TABLE: TableSchema = TableSchema {
+    name: "[audio]",
+    keys: &[INPUT_DEVICE, OUTPUT_DEVICE, BUFFER_FRAMES],
+};
+
+pub(crate) const CROSSFADE_MS: &str = "crossfade_ms";
+pub(crate) const FADE_IN_MS: &str = "fade_in_ms";
+pub(crate) const FADE_OUT_MS: &str = "fade_out_ms";
+pub(crate) const CLIP: &str = "clip";
+pub(crate) const INSTABILITY_MARGIN_DB: &str = "instability_margin_db";
+pub(crate) const INSTABILITY_HOLD_MS: &str = "instability_hold_ms";
+pub(crate) const FALLBACK: &str = "fallback";
+pub(crate) const GAIN_RELEASE_MS: &str = "gain_release_ms";
+pub(crate) const ENGINE_TABLE: TableSchema = TableSchema {
+    name: "[engine]",
+    keys: &[
+        CROSSFADE_MS,
+        FADE_IN_MS,
+        FADE_OUT_MS,
+        CLIP,
+        INSTABILITY_MARGIN_DB,
+        INSTABILITY_HOLD_MS,
+        FALLBACK,
+        GAIN_RELEASE_MS,
     ],
 };
 
@@ -87,7 +143,7 @@ pub(crate) const TAP_TABLE: TableSchema = TableSchema {
 };
 
 /// Every table kind, for telling the user where a misplaced key belongs.
-pub(crate) const ALL_TABLES: [&TableSchema; 8] = [
+pub(crate) const ALL_TABLES: [&TableSchema; 11] = [
     &TOP,
     &LINK_TABLE,
     &PATH_TABLE,
@@ -96,4 +152,7 @@ pub(crate) const ALL_TABLES: [&TableSchema; 8] = [
     &POLAR_TABLE,
     &ECHOES_TABLE,
     &TAP_TABLE,
+    &INVERSE_TABLE,
+    &AUDIO_TABLE,
+    &ENGINE_TABLE,
 ];

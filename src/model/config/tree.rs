@@ -12,6 +12,7 @@ use toml::de::{DeTable, DeValue};
 
 use super::line_index::LineIndex;
 use super::schema::{TableSchema, ALL_TABLES};
+use super::syntax_error::explain_syntax_error;
 use crate::model::error::{ConfigError, ConfigErrorKind};
 
 /// Longest value text quoted in an error before it is shortened.
@@ -51,34 +52,7 @@ impl<'t> Ctx<'t> {
         let span = error.span().unwrap_or(0..0);
         let (line, _) = self.lines.position(self.text, span.start);
         let line_text = self.lines.line_text(self.text, line);
-        let message = error.message().trim();
-        // toml reports `key =` with nothing after it as an unquoted string; say what it is.
-        let value_missing = line_text.split_once('=').is_some_and(|(_, rest)| {
-            let rest = rest.trim_start();
-            rest.is_empty() || rest.starts_with('#')
-        });
-        let (problem, help) = if value_missing {
-            (
-                "nothing follows `=`: the value is missing".to_owned(),
-                "write a value after `=`, or remove the line to use the default",
-            )
-        } else if message.contains("duplicate key") {
-            (
-                format!("not valid TOML: {message}"),
-                "each key may appear only once in a table: remove or rename one of them",
-            )
-        } else if message.contains("quoted") {
-            (
-                format!("not valid TOML: {message}"),
-                "write text in double quotes (\"f32\"), numbers as digits (48000, 0.5), lists in [ ]",
-            )
-        } else {
-            (
-                format!("not valid TOML: {message}"),
-                "fix the TOML syntax here: text in double quotes, lists in [ ], one `key = value` \
-                 per line",
-            )
-        };
+        let (problem, help) = explain_syntax_error(line_text, error.message().trim());
         let mut placed = self.place(
             ConfigError::new(ConfigErrorKind::Syntax, problem, help),
             None,
@@ -287,6 +261,14 @@ impl<'a> Node<'a> {
         match self.value {
             Some(DeValue::String(s)) => Ok(s.as_ref()),
             _ => Err(self.wrong_type("text in double quotes", "put the text in double quotes")),
+        }
+    }
+
+    /// `true` or `false`.
+    pub(crate) fn boolean(&self) -> Result<bool, ConfigError> {
+        match self.value {
+            Some(DeValue::Boolean(b)) => Ok(*b),
+            _ => Err(self.wrong_type("true or false", "write true or false, without quotes")),
         }
     }
 

@@ -1,0 +1,22 @@
+#!/bin/sh
+# Regenerates the reference fixtures in a temporary folder and compares them byte for byte with
+# the committed ones in tests/fixtures/reference. Exits non-zero when they differ.
+#
+# The pinned numpy/scipy live in a virtual environment: REDRESS_REFERENCE_VENV names it
+# (default: .venv-reference at the repository root). It is created and filled from
+# requirements.txt when missing.
+set -eu
+
+here=$(cd "$(dirname "$0")" && pwd)
+repo=$(cd "$here/../.." && pwd)
+venv=${REDRESS_REFERENCE_VENV:-"$repo/.venv-reference"}
+
+if [ ! -x "$venv/bin/python" ]; then
+    echo "creating $venv with the pinned numpy and scipy" >&2
+    python3 -m venv "$venv"
+    "$venv/bin/python" -m pip install --quiet --disable-pip-version-check \
+        -r "$here/requirements.txt"
+fi
+
+# One BLAS thread: the eigenvalue routines behind numpy.roots then run the same way every time.
+OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1 exec "$venv/bin/python" "$here/make_fixtures.py" --check

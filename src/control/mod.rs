@@ -1,0 +1,23 @@
+//! The control side of the live service: configuration reloads on SIGHUP, orderly stop on
+//! SIGTERM/SIGINT, a status socket, and plain log lines. Everything slow happens here, never on
+//! the audio thread.
+
+mod error;
+mod logging;
+mod running;
+mod service;
+mod signals;
+mod socket_path;
+mod status;
+mod status_client;
+mod status_server;
+
+pub use error::ServiceError;
+pub use logging::init_logging;
+pub use running::{AudioSource, RunningAudio, DEFAULT_SIMULATED_BLOCK};
+pub use service::{run_service, ServiceOptions, SourceChoice};
+pub use signals::SignalFlags;
+pub use socket_path::{current_uid, default_socket_path};
+pub use status::{render_status_text, ServiceStatus};
+pub use status_client::{query_status, StatusQueryError};
+pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_REQUEST_BYTES};

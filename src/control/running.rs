@@ -1,0 +1,203 @@
+//! The audio side of the service as the control thread sees it: the engine's control end plus
+//! whatever drives the engine (sound devices, or a simulated link in real time).
+
+use std::time::{Duration, Instant};
+
+use super::status::{AudioStatus, SimulatedStatus};
+use super::ServiceError;
+use crate::engine::{engine_pair, EngineControl, EngineSettings, Equalizer};
+use crate::io::live::{start_duplex, DeviceRequest, DuplexStreams};
+use crate::io::paced_link::{Alignment, PacedLink};
+use crate::model::{AudioSettings, EngineOptions, Link};
+use crate::numeric::poly::leading_zeros;
+use crate::pipeline::LinkPlan;
+
+/// Block size of the simulated link when the config names none (frames).
+pub const DEFAULT_SIMULATED_BLOCK: usize = 256;
+
+/// What drives the engine.
+#[derive(Debug, Clone)]
+pub enum AudioSource {
+    /// The sound devices named in the config's [audio] table.
+    Devices,
+    /// A simulated link running in real time: `truth` is what the link really does (the config
+    /// being run is the user's model of it, possibly a rough one).
+    Simulated { truth: Box<Link>, seed: u64 },
+}
+
+enum Driver {
+    Devices(DuplexStreams),
+    Simulated(PacedLink),
+}
+
+pub struct RunningAudio {
+    pub control: EngineControl,
+    driver: Driver,
+    pub sample_rate: f64,
+    pub channels: usize,
+    pub audio: AudioSettings,
+    pub engine_options: EngineOptions,
+    description: String,
+    block_frames: Option<usize>,
+}
+
+impl RunningAudio {
+    /// Builds the engine around generation `generation` of `plan` and starts the driver.
+    pub fn start(
+        link: &Link,
+        plan: &LinkPlan,
+        generation: u64,
+        source: &AudioSource,
+    ) -> Result<Self, ServiceError> {
+        let set = Equalizer::from_plan(plan, generation).map_err(ServiceError::NotRunnable)?;
+        let settings = EngineSettings::from_options(
+            &link.runtime.engine,
+            link.channel_count,
+            link.sample_rate,
+        );
+        let (engine, control) = engine_pair(settings, Some(set));
+        let (driver, description, block_frames) = match source {
+            AudioSource::Simulated { truth, seed } => {
+                let block = link
+                    .runtime
+                    .audio
+                    .buffer_frames
+                    .map_or(DEFAULT_SIMULATED_BLOCK, |b| b as usize);
+                let alignment = alignment(truth, plan);
+                let paced = PacedLink::start(truth, engine, block, alignment, *seed)
+                    .map_err(ServiceError::Simulation)?;
+                let description = match &truth.source {
+                    Some(p) => format!("real-time simulation of the link in {}", p.display()),
+                    None => "real-time simulation of the configured link".to_string(),
+                };
+                (Driver::Simulated(paced), description, Some(block))
+            }
+            AudioSource::Devices => {
+                let request = DeviceRequest {
+                    input: link.runtime.audio.input_device.clone(),
+                    output: link.runtime.audio.output_device.clone(),
+                    sample_rate: link.sample_rate.round() as u32,
+                    channels: link.channel_count as u16,
+                    buffer_frames: link.runtime.audio.buffer_frames,
+                };
+                let streams = start_duplex(&request, engine, control.stats())
+                    .map_err(|e| ServiceError::Audio(e.to_string()))?;
+                let config = streams.config().clone();
+                if config.ring_undersized() {
+                    log::warn!(
+                        "the devices run longer periods than requested; expect under- or \
+                         overruns, or set [audio] buffer_frames to {}",
+                        config.input_period_frames.max(config.output_period_frames)
+                    );
+                }
+                let block = config.input_period_frames as usize;
+                (Driver::Devices(streams), config.to_string(), Some(block))
+            }
+        };
+        Ok(Self {
+            control,
+            driver,
+            sample_rate: link.sample_rate,
+            channels: link.channel_count,
+            audio: link.runtime.audio.clone(),
+            engine_options: link.runtime.engine.clone(),
+            description,
+            block_frames,
+        })
+    }
+
+    /// Why `link` cannot be swapped in without restarting the streams, if it cannot.
+    pub fn restart_reason(&self, link: &Link) -> Option<String> {
+        if link.sample_rate != self.sample_rate {
+            return Some(format!(
+                "the sample rate changed from {} to {} Hz",
+                self.sample_rate, link.sample_rate
+            ));
+        }
+        if link.channel_count != self.channels {
+            return Some(format!(
+                "the channel count changed from {} to {}",
+                self.channels, link.channel_count
+            ));
+        }
+        if link.runtime.audio != self.audio {
+            return Some("the [audio] device settings changed".to_string());
+        }
+        if link.runtime.engine != self.engine_options {
+            return Some("the [engine] settings changed".to_string());
+        }
+        None
+    }
+
+    pub fn status(&self, restarts: u64) -> AudioStatus {
+        let (kind, stream_errors) = match &self.driver {
+            Driver::Devices(d) => {
+                let e = d.stream_errors();
+                ("devices", e.input.count + e.output.count)
+            }
+            Driver::Simulated(_) => ("simulated link", 0),
+        };
+        AudioStatus {
+            kind: kind.to_string(),
+            description: self.description.clone(),
+            sample_rate_hz: self.sample_rate,
+            channels: self.channels,
+            block_frames: self.block_frames,
+            block_period_us: self.block_frames.map(|b| 1e6 * b as f64 / self.sample_rate),
+            stream_errors,
+            restarts,
+        }
+    }
+
+    pub fn simulated(&self) -> Option<SimulatedStatus> {
+        match &self.driver {
+            Driver::Devices(_) => None,
+            Driver::Simulated(p) => {
+                let fig = p.figures();
+                Some(SimulatedStatus {
+                    error_before_db: fig.error_before_db(),
+                    error_after_db: fig.error_after_db(),
+                    late_blocks: fig.late_blocks.load(std::sync::atomic::Ordering::Relaxed),
+                })
+            }
+        }
+    }
+
+    /// Fades the output to silence (waiting at most `timeout`), then stops the driver.
+    pub fn fade_out_and_stop(mut self, timeout: Duration) {
+        self.control.request_fade_out();
+        let started = Instant::now();
+        while !self.control.fade_out_done() && started.elapsed() < timeout {
+            std::thread::sleep(Duration::from_millis(5));
+        }
+        match self.driver {
+            Driver::Devices(d) => d.stop(),
+            Driver::Simulated(mut p) => p.stop(),
+        }
+        self.control.collect_returned();
+    }
+}
+
+/// Delays to line the original up with the link's output (its bulk delay) and with the
+/// equalized output (bulk delay plus any latency the inverse adds), per channel.
+fn alignment(truth: &Link, plan: &LinkPlan) -> Alignment {
+    let channels = truth.channel_count;
+    let before: Vec<usize> = (0..channels)
+        .map(|c| {
+            truth
+                .path_for_channel(c)
+                .map_or(0, |p| leading_zeros(&p.channel.b))
+        })
+        .collect();
+    let after = (0..channels)
+        .map(|c| {
+            plan.path_for_channel(c)
+                .and_then(|p| p.design.as_ref())
+                .and_then(|d| d.as_ref().ok())
+                .map_or(before[c], |d| {
+                    d.residual_delay_samples + d.added_latency_samples
+                })
+        })
+        .collect();
+    Alignment { before, after }
+}

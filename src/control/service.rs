@@ -1,0 +1,324 @@
+//! `redress run`: the control thread of the live service.
+//!
+//! It owns every slow or fallible step — reading and checking the config, designing, rounding,
+//! building filter sets, logging, answering status requests — and talks to the audio thread
+//! only through the engine's queues and counters. Nothing that goes wrong after start-up stops
+//! the audio: a bad reload is logged and the running filters carry on.
+
+use std::path::{Path, PathBuf};
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+use log::{error, info, warn};
+
+use super::running::{AudioSource, RunningAudio};
+use super::signals::SignalFlags;
+use super::socket_path::current_uid;
+use super::status::{path_summaries, ReloadStatus, ServiceStatus};
+use super::status_server::{SharedDocument, StatusServer};
+use super::ServiceError;
+use crate::engine::{EngineEvent, Equalizer};
+use crate::model::config::load_link;
+use crate::model::Link;
+use crate::pipeline::{plan_link, LinkPlan};
+
+/// How often the control loop wakes.
+const TICK: Duration = Duration::from_millis(20);
+/// How often the status document is refreshed.
+const STATUS_EVERY: Duration = Duration::from_millis(250);
+
+/// What `redress run` was asked to do.
+#[derive(Debug, Clone)]
+pub struct ServiceOptions {
+    pub config: PathBuf,
+    pub socket: PathBuf,
+    pub source: SourceChoice,
+    /// Stop by itself after this long (demos and tests); `None` runs until TERM/INT.
+    pub run_for: Option<Duration>,
+}
+
+/// Where the audio comes from.
+#[derive(Debug, Clone)]
+pub enum SourceChoice {
+    Devices,
+    /// A simulated link; `truth` names the config describing the real link (default: the
+    /// config being run).
+    Simulated {
+        truth: Option<PathBuf>,
+        seed: u64,
+    },
+}
+
+/// The service's state on the control thread.
+struct Service {
+    options: ServiceOptions,
+    source: AudioSource,
+    link: Link,
+    plan: LinkPlan,
+    generation: u64,
+    audio: Option<RunningAudio>,
+    reloads: ReloadStatus,
+    restarts: u64,
+    /// Stream errors already logged.
+    seen_stream_errors: u64,
+    started: Instant,
+    document: SharedDocument,
+}
+
+/// Runs the service until TERM/INT (or `run_for`). Returns once the audio has faded out and
+/// stopped. Errors only at start-up.
+pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
+    let signals = SignalFlags::install().map_err(ServiceError::Signals)?;
+    if current_uid() == Some(0) {
+        warn!(
+            "running as root: a service like this needs no privileges; run it as an ordinary \
+             user (see the example systemd unit)"
+        );
+    }
+    let link = load_link(&options.config).map_err(|e| ServiceError::Config(Box::new(e)))?;
+    let plan = plan_link(&link);
+    if !plan.is_runnable() {
+        return Err(ServiceError::NotRunnable(
+            crate::engine::EngineError::NotRunnable(plan.problems()),
+        ));
+    }
+    let source = match &options.source {
+        SourceChoice::Devices => AudioSource::Devices,
+        SourceChoice::Simulated { truth, seed } => {
+            let truth = match truth {
+                Some(p) => load_link(p).map_err(|e| ServiceError::Config(Box::new(e)))?,
+                None => link.clone(),
+            };
+            AudioSource::Simulated {
+                truth: Box::new(truth),
+                seed: *seed,
+            }
+        }
+    };
+    let document: SharedDocument = Arc::new(Mutex::new(Arc::new(String::from("{}"))));
+    let server = StatusServer::start(&options.socket, Arc::clone(&document))?;
+    let audio = RunningAudio::start(&link, &plan, 1, &source)?;
+    let mut service = Service {
+        options,
+        source,
+        link,
+        plan,
+        generation: 1,
+        audio: Some(audio),
+        reloads: ReloadStatus::default(),
+        restarts: 0,
+        seen_stream_errors: 0,
+        started: Instant::now(),
+        document,
+    };
+    info!(
+        "running {} (generation 1) on {}; status on {}",
+        service.options.config.display(),
+        service.audio_description(),
+        server.path().display()
+    );
+    for p in path_summaries(&service.plan) {
+        info!(
+            "path `{}`: {} in {}; gives up: {}",
+            p.label, p.method, p.structure, p.gives_up
+        );
+    }
+    service.publish();
+    let mut last_status = Instant::now();
+    loop {
+        std::thread::sleep(TICK);
+        if signals.stop_requested() {
+            info!("stop requested: fading out");
+            break;
+        }
+        if signals.take_reload() {
+            service.reload();
+        }
+        service.pump_events();
+        if let Some(limit) = service.options.run_for {
+            if service.started.elapsed() >= limit {
+                info!("run time of {:.1} s reached", limit.as_secs_f64());
+                signals.request_stop();
+            }
+        }
+        if last_status.elapsed() >= STATUS_EVERY {
+            service.publish();
+            last_status = Instant::now();
+        }
+    }
+    let fade = Duration::from_secs_f64(service.link.runtime.engine.fade_out_ms / 1000.0);
+    if let Some(audio) = service.audio.take() {
+        audio.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
+    }
+    drop(server);
+    info!("stopped");
+    Ok(())
+}
+
+impl Service {
+    fn audio_description(&self) -> String {
+        self.audio
+            .as_ref()
+            .map(|a| a.status(self.restarts).description)
+            .unwrap_or_default()
+    }
+
+    /// Re-reads the config; on any problem logs it and keeps the running filters.
+    fn reload(&mut self) {
+        let path = self.options.config.clone();
+        info!("reload requested: reading {}", path.display());
+        let link = match load_link(&path) {
+            Ok(link) => link,
+            Err(e) => return self.reject(format!("{e}")),
+        };
+        let plan = plan_link(&link);
+        if !plan.is_runnable() {
+            return self.reject(format!(
+                "the new configuration cannot run: {}",
+                plan.problems().join("; ")
+            ));
+        }
+        let generation = self.generation + 1;
+        let restart = self.audio.as_ref().and_then(|a| a.restart_reason(&link));
+        if let Some(reason) = restart {
+            warn!("{reason}: restarting the audio streams for generation {generation}");
+            let fade = Duration::from_secs_f64(self.link.runtime.engine.fade_out_ms / 1000.0);
+            if let Some(old) = self.audio.take() {
+                old.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
+            }
+            self.seen_stream_errors = 0;
+            match RunningAudio::start(&link, &plan, generation, &self.source) {
+                Ok(audio) => self.audio = Some(audio),
+                Err(e) => {
+                    // Bring the previous configuration back rather than leave the link silent.
+                    error!("restart with the new configuration failed: {e}; restoring the previous one");
+                    match RunningAudio::start(&self.link, &self.plan, self.generation, &self.source)
+                    {
+                        Ok(audio) => self.audio = Some(audio),
+                        Err(e2) => error!("restoring the previous configuration failed too: {e2}"),
+                    }
+                    return self.reject(format!("{e}"));
+                }
+            }
+            self.restarts += 1;
+        } else {
+            let set = match Equalizer::from_plan(&plan, generation) {
+                Ok(set) => set,
+                Err(e) => return self.reject(format!("{e}")),
+            };
+            if let Some(audio) = self.audio.as_mut() {
+                if audio.control.send(set).is_err() {
+                    return self.reject(
+                        "the engine still has earlier filter sets queued; try the reload again \
+                         in a moment"
+                            .to_string(),
+                    );
+                }
+            }
+        }
+        self.generation = generation;
+        self.link = link;
+        self.plan = plan;
+        self.reloads.succeeded += 1;
+        info!("reloaded: generation {generation} accepted, crossfading to it");
+        for p in path_summaries(&self.plan) {
+            info!(
+                "path `{}`: {} in {}; gives up: {}",
+                p.label, p.method, p.structure, p.gives_up
+            );
+        }
+        self.publish();
+    }
+
+    fn reject(&mut self, why: String) {
+        error!(
+            "reload rejected, generation {} keeps running: {why}",
+            self.generation
+        );
+        self.reloads.failed += 1;
+        self.reloads.last_error = Some(why);
+        self.publish();
+    }
+
+    /// Logs the engine's events and frees the filter sets it has finished with.
+    fn pump_events(&mut self) {
+        let Some(audio) = self.audio.as_mut() else {
+            return;
+        };
+        audio.control.collect_returned();
+        let errors = audio.status(self.restarts).stream_errors;
+        if errors > self.seen_stream_errors {
+            warn!(
+                "the audio device reported {} more stream error(s) ({} in all)",
+                errors - self.seen_stream_errors,
+                errors
+            );
+            self.seen_stream_errors = errors;
+        }
+        for event in audio.control.drain_events() {
+            match event {
+                EngineEvent::SwapStarted { generation } => {
+                    info!("crossfade to generation {generation} started")
+                }
+                EngineEvent::SwapCompleted { generation } => {
+                    info!("generation {generation} is running")
+                }
+                EngineEvent::SwapAborted { generation } => warn!(
+                    "generation {generation} ran away during its crossfade and was dropped; \
+                     the previous filters keep running"
+                ),
+                EngineEvent::InstabilityTrip {
+                    generation,
+                    channel,
+                    non_finite,
+                    fallback,
+                    now_running,
+                } => warn!(
+                    "instability guard: generation {generation} {} on channel {channel}; state \
+                     reset, fell back to {} (generation {now_running} running)",
+                    if non_finite {
+                        "produced a non-finite sample"
+                    } else {
+                        "ran beyond its own gain bound"
+                    },
+                    match fallback {
+                        crate::engine::Fallback::LastGood => "the last good filters",
+                        crate::engine::Fallback::Bypass => "bypass",
+                    }
+                ),
+                EngineEvent::FadeOutComplete => {}
+            }
+        }
+    }
+
+    /// Renders the status document for the socket.
+    fn publish(&self) {
+        let Some(audio) = self.audio.as_ref() else {
+            return;
+        };
+        let status = ServiceStatus {
+            version: env!("CARGO_PKG_VERSION"),
+            pid: std::process::id(),
+            config_path: display(&self.options.config),
+            config_generation: self.generation,
+            uptime_seconds: self.started.elapsed().as_secs_f64(),
+            audio: audio.status(self.restarts),
+            reloads: self.reloads.clone(),
+            paths: path_summaries(&self.plan),
+            engine: audio.control.snapshot(),
+            simulated: audio.simulated(),
+        };
+        match serde_json::to_string(&status) {
+            Ok(text) => {
+                if let Ok(mut doc) = self.document.lock() {
+                    *doc = Arc::new(text);
+                }
+            }
+            Err(e) => warn!("could not render the status document: {e}"),
+        }
+    }
+}
+
+fn display(path: &Path) -> String {
+    path.display().to_string()
+}

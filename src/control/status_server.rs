@@ -1,0 +1,179 @@
+//! The status socket: a local stream socket, owner-only, answering one request per connection.
+//!
+//! Protocol (ours): the client sends one line, `status`; the server answers with one line of
+//! JSON (the service's status document) and closes. Anything else gets `{"error": …}`.
+//! The server runs on its own thread and only ever reads a pre-rendered document, so a slow,
+//! silent or hostile client can delay other clients by at most the timeouts below, and never
+//! the control thread or the audio thread.
+
+use std::io::{ErrorKind, Read, Write};
+use std::os::unix::fs::FileTypeExt;
+use std::os::unix::net::{UnixListener, UnixStream};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::{Arc, Mutex};
+use std::thread::JoinHandle;
+use std::time::Duration;
+
+use super::socket_path::{prepare_private_dir, restrict_socket};
+use super::ServiceError;
+
+/// Longest request line read; anything longer is refused.
+pub const MAX_REQUEST_BYTES: usize = 256;
+/// How long a client may take to send its request or to read the answer.
+pub const CLIENT_TIMEOUT: Duration = Duration::from_millis(500);
+
+/// The document the server hands out, replaced whole by the control thread.
+pub type SharedDocument = Arc<Mutex<Arc<String>>>;
+
+pub struct StatusServer {
+    path: PathBuf,
+    stop: Arc<AtomicBool>,
+    thread: Option<JoinHandle<()>>,
+}
+
+impl StatusServer {
+    /// Binds the socket (refusing if another live instance holds it; taking over a stale one)
+    /// and starts answering.
+    pub fn start(path: &Path, document: SharedDocument) -> Result<Self, ServiceError> {
+        prepare_private_dir(path).map_err(|why| ServiceError::Socket {
+            path: path.to_path_buf(),
+            why,
+        })?;
+        claim_path(path)?;
+        let listener = UnixListener::bind(path).map_err(|e| ServiceError::Socket {
+            path: path.to_path_buf(),
+            why: format!("cannot listen: {e}"),
+        })?;
+        restrict_socket(path).map_err(|e| ServiceError::Socket {
+            path: path.to_path_buf(),
+            why: format!("cannot make the socket owner-only: {e}"),
+        })?;
+        listener
+            .set_nonblocking(true)
+            .map_err(|e| ServiceError::Socket {
+                path: path.to_path_buf(),
+                why: e.to_string(),
+            })?;
+        let stop = Arc::new(AtomicBool::new(false));
+        let flag = Arc::clone(&stop);
+        let thread = std::thread::Builder::new()
+            .name("redress-status".into())
+            .spawn(move || serve(listener, document, flag))
+            .map_err(|e| ServiceError::Socket {
+                path: path.to_path_buf(),
+                why: format!("cannot start the status thread: {e}"),
+            })?;
+        Ok(Self {
+            path: path.to_path_buf(),
+            stop,
+            thread: Some(thread),
+        })
+    }
+
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+}
+
+impl Drop for StatusServer {
+    fn drop(&mut self) {
+        self.stop.store(true, Ordering::Release);
+        if let Some(t) = self.thread.take() {
+            let _ = t.join();
+        }
+        let _ = std::fs::remove_file(&self.path);
+    }
+}
+
+/// Refuses a path held by a live instance; removes a stale socket left by a dead one.
+fn claim_path(path: &Path) -> Result<(), ServiceError> {
+    let Ok(meta) = std::fs::symlink_metadata(path) else {
+        return Ok(());
+    };
+    if !meta.file_type().is_socket() {
+        return Err(ServiceError::Socket {
+            path: path.to_path_buf(),
+            why: "a file that is not a socket is in the way; remove it or choose another --socket"
+                .into(),
+        });
+    }
+    match UnixStream::connect(path) {
+        Ok(_) => Err(ServiceError::AlreadyRunning {
+            path: path.to_path_buf(),
+        }),
+        Err(_) => std::fs::remove_file(path).map_err(|e| ServiceError::Socket {
+            path: path.to_path_buf(),
+            why: format!("a stale socket is in the way and cannot be removed: {e}"),
+        }),
+    }
+}
+
+fn serve(listener: UnixListener, document: SharedDocument, stop: Arc<AtomicBool>) {
+    while !stop.load(Ordering::Acquire) {
+        match listener.accept() {
+            Ok((stream, _)) => answer(stream, &document),
+            Err(e) if e.kind() == ErrorKind::WouldBlock => {
+                std::thread::sleep(Duration::from_millis(20));
+            }
+            Err(_) => std::thread::sleep(Duration::from_millis(20)),
+        }
+    }
+}
+
+fn answer(mut stream: UnixStream, document: &SharedDocument) {
+    if stream.set_nonblocking(false).is_err()
+        || stream.set_read_timeout(Some(CLIENT_TIMEOUT)).is_err()
+        || stream.set_write_timeout(Some(CLIENT_TIMEOUT)).is_err()
+    {
+        return;
+    }
+    let reply = match read_request(&mut stream) {
+        Ok(request) if request == "status" => {
+            let doc = document.lock().map(|d| Arc::clone(&d)).ok();
+            match doc {
+                Some(d) => format!("{d}\n"),
+                None => error_reply("the status is not available right now; try again"),
+            }
+        }
+        Ok(request) => error_reply(&format!(
+            "unknown request {:?}; send the line `status`",
+            request.chars().take(40).collect::<String>()
+        )),
+        Err(why) => error_reply(&why),
+    };
+    // A client that does not read gets cut off by the write timeout.
+    let _ = stream.write_all(reply.as_bytes());
+}
+
+/// Reads one request line of at most [`MAX_REQUEST_BYTES`].
+fn read_request(stream: &mut UnixStream) -> Result<String, String> {
+    let mut buf = [0u8; MAX_REQUEST_BYTES + 1];
+    let mut len = 0;
+    loop {
+        match stream.read(&mut buf[len..]) {
+            Ok(0) => break,
+            Ok(n) => {
+                len += n;
+                if buf[..len].contains(&b'\n') || len > MAX_REQUEST_BYTES {
+                    break;
+                }
+            }
+            Err(e) if e.kind() == ErrorKind::Interrupted => continue,
+            Err(_) => return Err("the request did not arrive in time".into()),
+        }
+    }
+    if len > MAX_REQUEST_BYTES {
+        return Err(format!(
+            "the request is longer than {MAX_REQUEST_BYTES} bytes; send the line `status`"
+        ));
+    }
+    let line = buf[..len].split(|&b| b == b'\n').next().unwrap_or(&[]);
+    std::str::from_utf8(line)
+        .map(|s| s.trim().to_string())
+        .map_err(|_| "the request is not text; send the line `status`".into())
+}
+
+fn error_reply(why: &str) -> String {
+    format!("{}\n", serde_json::json!({ "error": why }))
+}

@@ -1,0 +1,315 @@
+//! Opening a capture and a playback stream with the engine between them.
+
+use std::fmt;
+use std::sync::Arc;
+
+use cpal::traits::{DeviceTrait, StreamTrait};
+
+use super::capture_side::CaptureSide;
+use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
+use super::error::{Direction, LiveError};
+use super::playback_side::PlaybackSide;
+use super::ring::{duplex_sides, RingPlan};
+use super::samples::{DeviceFormat, DeviceSample};
+use super::stream_choice::{choose_config, Choice};
+use super::stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};
+use crate::engine::{Engine, EngineStats};
+use crate::model::{MAX_CHANNELS, SAMPLE_RATE_RANGE};
+
+/// Which devices to open and how.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct DeviceRequest {
+    /// "default", a device id as listed ("alsa:hw:CARD=0,DEV=0"), or part of a device's name.
+    pub input: String,
+    /// Same forms as `input`.
+    pub output: String,
+    pub sample_rate: u32,
+    /// Audio channels on both devices; must equal the engine's channel count.
+    pub channels: u16,
+    /// Frames per device period; `None` picks a default the devices accept.
+    pub buffer_frames: Option<u32>,
+}
+
+impl Default for DeviceRequest {
+    fn default() -> Self {
+        Self {
+            input: DEFAULT_DEVICE.to_string(),
+            output: DEFAULT_DEVICE.to_string(),
+            sample_rate: 48_000,
+            channels: 2,
+            buffer_frames: None,
+        }
+    }
+}
+
+/// What was opened.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DuplexConfig {
+    pub input_device: String,
+    pub output_device: String,
+    pub sample_rate: u32,
+    pub channels: u16,
+    pub input_format: DeviceFormat,
+    pub output_format: DeviceFormat,
+    /// Periods the streams actually run with, as the backend reports them.
+    pub input_period_frames: u32,
+    pub output_period_frames: u32,
+    /// The ring between the callbacks (sized from the requested periods).
+    pub ring: RingPlan,
+}
+
+impl DuplexConfig {
+    /// Delay added by the ring's silence prefill (device buffering, not filter delay).
+    pub fn ring_latency_seconds(&self) -> f64 {
+        self.ring.added_latency_seconds(self.sample_rate)
+    }
+
+    /// True when a stream runs a longer period than the ring was sized for, so the prefill
+    /// covers less than two of its periods and under/overruns become likely.
+    pub fn ring_undersized(&self) -> bool {
+        let longest = self.input_period_frames.max(self.output_period_frames) as usize;
+        longest > self.ring.period_frames
+    }
+}
+
+impl fmt::Display for DuplexConfig {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(
+            f,
+            "capture `{}` ({}, {}-frame period) → playback `{}` ({}, {}-frame period), \
+             {} channel(s) at {} Hz; ring {} frames with {} frames of silence up front \
+             ({:.1} ms of added buffering latency)",
+            self.input_device,
+            self.input_format,
+            self.input_period_frames,
+            self.output_device,
+            self.output_format,
+            self.output_period_frames,
+            self.channels,
+            self.sample_rate,
+            self.ring.capacity_frames(),
+            self.ring.prefill_frames(),
+            1000.0 * self.ring_latency_seconds(),
+        )
+    }
+}
+
+/// Error counts of both streams.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct StreamErrorCounts {
+    pub input: StreamErrorTally,
+    pub output: StreamErrorTally,
+}
+
+/// The running capture and playback streams. Dropping it stops both (capture first); the
+/// engine is dropped with the capture stream.
+pub struct DuplexStreams {
+    // Held only to be dropped. Field order is drop order: capture stops first, so the engine
+    // never runs while the playback side is gone.
+    _capture: cpal::Stream,
+    _playback: cpal::Stream,
+    config: DuplexConfig,
+    input_errors: Arc<StreamErrorCounter>,
+    output_errors: Arc<StreamErrorCounter>,
+}
+
+impl DuplexStreams {
+    pub fn config(&self) -> &DuplexConfig {
+        &self.config
+    }
+
+    /// Errors the backend reported on either stream so far (read by the control thread, which
+    /// logs them; the error callbacks only count).
+    pub fn stream_errors(&self) -> StreamErrorCounts {
+        StreamErrorCounts {
+            input: self.input_errors.tally(),
+            output: self.output_errors.tally(),
+        }
+    }
+
+    /// Stops both streams (the same as dropping).
+    pub fn stop(self) {
+        drop(self);
+    }
+}
+
+impl fmt::Debug for DuplexStreams {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("DuplexStreams")
+            .field("config", &self.config)
+            .field("errors", &self.stream_errors())
+            .finish_non_exhaustive()
+    }
+}
+
+/// Opens the requested devices and runs `engine` inside the capture callback, its output
+/// crossing to the playback callback through a ring prefilled with two periods of silence.
+/// `stats` must be the engine's own counters (`EngineControl::stats()`): overruns (samples
+/// dropped because the ring was full) and underruns (samples of silence played because it was
+/// empty) are counted there. Every check that can fail is made before `engine` is consumed;
+/// should the backend still refuse to build or start a stream, the engine is dropped with it
+/// and a new engine pair is needed for another try.
+pub fn start_duplex(
+    request: &DeviceRequest,
+    engine: Engine,
+    stats: Arc<EngineStats>,
+) -> Result<DuplexStreams, LiveError> {
+    check_request(request, &engine)?;
+    let host = cpal::default_host();
+    let input_device = find_device(&host, &request.input, Direction::Capture)?;
+    let output_device = find_device(&host, &request.output, Direction::Playback)?;
+    let input_label = device_label(&input_device);
+    let output_label = device_label(&output_device);
+    let input_choice = choose_for(&input_device, &input_label, Direction::Capture, request)?;
+    let output_choice = choose_for(&output_device, &output_label, Direction::Playback, request)?;
+
+    let period = input_choice.period_frames.max(output_choice.period_frames) as usize;
+    let (capture, playback, ring) = duplex_sides(engine, stats, period);
+
+    let input_errors = Arc::new(StreamErrorCounter::default());
+    let output_errors = Arc::new(StreamErrorCounter::default());
+    let input = build_capture(&input_device, input_choice, capture, &input_errors)
+        .map_err(|e| LiveError::backend(format!("opening capture device `{input_label}`"), e))?;
+    let output = build_playback(&output_device, output_choice, playback, &output_errors)
+        .map_err(|e| LiveError::backend(format!("opening playback device `{output_label}`"), e))?;
+    input
+        .play()
+        .map_err(|e| LiveError::backend(format!("starting capture on `{input_label}`"), e))?;
+    output
+        .play()
+        .map_err(|e| LiveError::backend(format!("starting playback on `{output_label}`"), e))?;
+
+    let config = DuplexConfig {
+        input_period_frames: input.buffer_size().unwrap_or(input_choice.period_frames),
+        output_period_frames: output.buffer_size().unwrap_or(output_choice.period_frames),
+        input_device: input_label,
+        output_device: output_label,
+        sample_rate: request.sample_rate,
+        channels: request.channels,
+        input_format: input_choice.format,
+        output_format: output_choice.format,
+        ring,
+    };
+    Ok(DuplexStreams {
+        _capture: input,
+        _playback: output,
+        config,
+        input_errors,
+        output_errors,
+    })
+}
+
+fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveError> {
+    let (lo, hi) = SAMPLE_RATE_RANGE;
+    if !(lo..=hi).contains(&f64::from(request.sample_rate)) {
+        return Err(LiveError::InvalidRequest {
+            field: "sample_rate",
+            value: request.sample_rate.to_string(),
+            why: format!("outside the {lo}–{hi} Hz this tool accepts"),
+            help: "use the link's sample rate, e.g. 48000".to_string(),
+        });
+    }
+    if request.channels == 0 || usize::from(request.channels) > MAX_CHANNELS {
+        return Err(LiveError::InvalidRequest {
+            field: "channels",
+            value: request.channels.to_string(),
+            why: format!("must be 1–{MAX_CHANNELS}"),
+            help: "use the link's channel count".to_string(),
+        });
+    }
+    if request.buffer_frames == Some(0) {
+        return Err(LiveError::InvalidRequest {
+            field: "buffer_frames",
+            value: "0".to_string(),
+            why: "a device period must hold at least one frame".to_string(),
+            help: "leave it unset for the default, or give e.g. 256, 512 or 1024".to_string(),
+        });
+    }
+    if engine.channels() != usize::from(request.channels) {
+        return Err(LiveError::ChannelMismatch {
+            engine_channels: engine.channels(),
+            requested: request.channels,
+        });
+    }
+    Ok(())
+}
+
+fn choose_for(
+    device: &cpal::Device,
+    label: &str,
+    direction: Direction,
+    request: &DeviceRequest,
+) -> Result<Choice, LiveError> {
+    let offered = supported_configs(device, direction).map_err(|e| {
+        LiveError::backend(
+            format!("asking {direction} device `{label}` what it supports"),
+            e,
+        )
+    })?;
+    choose_config(
+        direction,
+        label,
+        &offered,
+        request.sample_rate,
+        request.channels,
+        request.buffer_frames,
+    )
+}
+
+/// The error callback: counts and remembers the kind; the control thread does the logging.
+fn on_error(counter: &Arc<StreamErrorCounter>) -> impl FnMut(cpal::Error) + Send + 'static {
+    let counter = Arc::clone(counter);
+    move |e: cpal::Error| counter.record(StreamErrorKind::from_backend(e.kind()))
+}
+
+fn build_capture(
+    device: &cpal::Device,
+    choice: Choice,
+    capture: CaptureSide,
+    errors: &Arc<StreamErrorCounter>,
+) -> Result<cpal::Stream, cpal::Error> {
+    fn build<T: DeviceSample>(
+        device: &cpal::Device,
+        choice: Choice,
+        mut capture: CaptureSide,
+        errors: &Arc<StreamErrorCounter>,
+    ) -> Result<cpal::Stream, cpal::Error> {
+        device.build_input_stream::<T, _, _>(
+            choice.config,
+            move |data: &[T], _: &cpal::InputCallbackInfo| capture.on_input(data),
+            on_error(errors),
+            None,
+        )
+    }
+    match choice.format {
+        DeviceFormat::F32 => build::<f32>(device, choice, capture, errors),
+        DeviceFormat::I16 => build::<i16>(device, choice, capture, errors),
+        DeviceFormat::I32 => build::<i32>(device, choice, capture, errors),
+    }
+}
+
+fn build_playback(
+    device: &cpal::Device,
+    choice: Choice,
+    playback: PlaybackSide,
+    errors: &Arc<StreamErrorCounter>,
+) -> Result<cpal::Stream, cpal::Error> {
+    fn build<T: DeviceSample>(
+        device: &cpal::Device,
+        choice: Choice,
+        mut playback: PlaybackSide,
+        errors: &Arc<StreamErrorCounter>,
+    ) -> Result<cpal::Stream, cpal::Error> {
+        device.build_output_stream::<T, _, _>(
+            choice.config,
+            move |data: &mut [T], _: &cpal::OutputCallbackInfo| playback.on_output(data),
+            on_error(errors),
+            None,
+        )
+    }
+    match choice.format {
+        DeviceFormat::F32 => build::<f32>(device, choice, playback, errors),
+        DeviceFormat::I16 => build::<i16>(device, choice, playback, errors),
+        DeviceFormat::I32 => build::<i32>(device, choice, playback, errors),
+    }
+}

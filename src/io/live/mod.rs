@@ -1,0 +1,34 @@
+//! Live audio: a capture device feeds the engine, a playback device plays its output.
+//!
+//! The engine runs inside the capture callback ([`CaptureSide::on_input`]): device samples are
+//! converted to f32 in preallocated scratch, processed, and pushed into a wait-free ring. The
+//! playback callback ([`PlaybackSide::on_output`]) pops from the ring into the device buffer,
+//! playing silence when it runs dry. The ring starts with two periods of silence to absorb the
+//! jitter between the two device clocks (see [`ring`] for the latency this adds). Samples
+//! dropped because the ring was full and samples of silence played because it was empty are
+//! counted in the engine's `input_overruns` / `output_underruns`, so the two streams never
+//! drift apart silently.
+//!
+//! Both callbacks allocate nothing, lock nothing and do no I/O or logging; the streams' error
+//! callbacks only count into atomics ([`StreamErrorCounter`]) and the control thread reports.
+//! The callback bodies are plain methods so tests run the real code without a device.
+
+mod capture_side;
+mod devices;
+mod duplex;
+mod error;
+mod playback_side;
+pub mod ring;
+mod samples;
+mod stream_choice;
+mod stream_errors;
+
+pub use capture_side::CaptureSide;
+pub use devices::{list_devices, DEFAULT_DEVICE};
+pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
+pub use error::{Direction, LiveError};
+pub use playback_side::PlaybackSide;
+pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
+pub use samples::{DeviceFormat, DeviceSample};
+pub use stream_choice::DEFAULT_PERIOD_FRAMES;
+pub use stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};

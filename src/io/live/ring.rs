@@ -1,0 +1,71 @@
+//! The ring between the two callbacks, and the pair of callback sides it joins.
+//!
+//! The engine runs in the capture callback, so what crosses the ring is finished output. The
+//! playback device asks for samples on its own clock; the ring starts with
+//! [`PREFILL_PERIODS`] periods of silence so that the two clocks may wander against each other
+//! by that much before the playback side finds it empty, and has as much room again above the
+//! prefill before the capture side finds it full.
+//!
+//! Latency: the prefill delays the output by `PREFILL_PERIODS × period` frames (2 × 512 frames
+//! ≈ 21 ms at 48 kHz by default). This is buffering between two device clocks, not part of the
+//! filter: the inverse's own delay (bulk and design latency) comes on top, and so does each
+//! device's own buffer (the ALSA backend keeps two periods per direction).
+
+use std::sync::Arc;
+
+use ringbuf::traits::{Producer, Split};
+use ringbuf::HeapRb;
+
+use super::capture_side::CaptureSide;
+use super::playback_side::PlaybackSide;
+use crate::engine::{Engine, EngineStats};
+
+/// Periods of silence the ring starts with.
+pub const PREFILL_PERIODS: usize = 2;
+/// Ring capacity in periods: the prefill, and as much room again above it.
+pub const RING_PERIODS: usize = 2 * PREFILL_PERIODS;
+
+/// How the ring between the callbacks is sized.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct RingPlan {
+    /// The period the ring was sized for (the larger of the two streams' requested periods).
+    pub period_frames: usize,
+    pub channels: usize,
+}
+
+impl RingPlan {
+    pub fn prefill_frames(&self) -> usize {
+        PREFILL_PERIODS * self.period_frames
+    }
+
+    pub fn capacity_frames(&self) -> usize {
+        RING_PERIODS * self.period_frames
+    }
+
+    /// Delay the prefill adds between input and output, in seconds at `sample_rate`.
+    pub fn added_latency_seconds(&self, sample_rate: u32) -> f64 {
+        self.prefill_frames() as f64 / f64::from(sample_rate.max(1))
+    }
+}
+
+/// Builds the capture side (owning `engine`) and the playback side, joined by a ring sized for
+/// `period_frames` and prefilled with silence. Allocates (control thread only); the sides'
+/// callbacks never do. Overruns and underruns are counted into `stats`.
+pub fn duplex_sides(
+    engine: Engine,
+    stats: Arc<EngineStats>,
+    period_frames: usize,
+) -> (CaptureSide, PlaybackSide, RingPlan) {
+    let plan = RingPlan {
+        period_frames: period_frames.max(1),
+        channels: engine.channels().max(1),
+    };
+    let (mut producer, consumer) =
+        HeapRb::<f32>::new(plan.capacity_frames() * plan.channels).split();
+    let silence = vec![0.0f32; plan.prefill_frames() * plan.channels];
+    let prefilled = producer.push_slice(&silence);
+    debug_assert_eq!(prefilled, silence.len());
+    let capture = CaptureSide::new(engine, producer, Arc::clone(&stats), plan.period_frames);
+    let playback = PlaybackSide::new(consumer, stats, plan.channels, plan.period_frames);
+    (capture, playback, plan)
+}

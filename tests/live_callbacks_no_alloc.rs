@@ -1,0 +1,193 @@
+//! The live callbacks' real code, called directly without a device: it allocates and frees
+//! nothing (steady running, f32 and i16 devices, buffers longer than the scratch, a filter swap,
+//! ring overruns and underruns), it counts what it drops and fills, and it delivers the
+//! engine's output in order behind the silence prefill.
+
+mod common;
+
+use assert_no_alloc::{assert_no_alloc, reset_violation_count, violation_count, AllocDisabler};
+use common::{echo_line, inverse_set, resonant_line, sine};
+use redress::engine::{engine_pair, EngineSettings};
+use redress::io::live::{duplex_sides, DeviceSample, PREFILL_PERIODS, RING_PERIODS};
+use std::sync::atomic::Ordering;
+
+#[global_allocator]
+static ALLOCATOR: AllocDisabler = AllocDisabler;
+
+const CHANNELS: usize = 2;
+const PERIOD: usize = 256;
+
+fn to_i16(x: &[f32]) -> Vec<i16> {
+    x.iter().map(|v| i16::from_f32(*v)).collect()
+}
+
+// Source: common practice for real-time audio — no (de)allocation on the audio thread.
+#[test]
+fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
+    let settings = EngineSettings::defaults(CHANNELS, 48_000.0);
+    let (engine, mut control) = engine_pair(settings, Some(inverse_set(&echo_line(), CHANNELS, 1)));
+    let stats = control.stats();
+    let (mut capture, mut playback, plan) = duplex_sides(engine, stats.clone(), PERIOD);
+    assert_eq!(plan.prefill_frames(), PREFILL_PERIODS * PERIOD);
+    assert_eq!(plan.capacity_frames(), RING_PERIODS * PERIOD);
+
+    let block = sine(PERIOD, CHANNELS, 440.0, 0.3, 0);
+    let block_i16 = to_i16(&block);
+    // Longer than the scratch (one period), shorter than the prefill: the sides must cut it
+    // into chunks, and the ring has room for it.
+    let long = sine(PERIOD + 100, CHANNELS, 1000.0, 0.2, 0);
+    let mut out = vec![0.0f32; block.len()];
+    let mut out_i16 = vec![0i16; block.len()];
+    let mut out_long = vec![0.0f32; long.len()];
+    let overruns = || stats.input_overruns.load(Ordering::Relaxed);
+    let underruns = || stats.output_underruns.load(Ordering::Relaxed);
+    reset_violation_count();
+
+    // Steady duplex, alternating, f32 then i16 devices: the ring stays at its prefill.
+    for _ in 0..50 {
+        assert_no_alloc(|| {
+            capture.on_input(&block);
+            playback.on_output(&mut out);
+        });
+    }
+    for _ in 0..50 {
+        assert_no_alloc(|| {
+            capture.on_input(&block_i16);
+            playback.on_output(&mut out_i16);
+        });
+    }
+    assert_eq!(
+        (overruns(), underruns()),
+        (0, 0),
+        "steady running lost samples"
+    );
+    assert!(out.iter().any(|v| *v != 0.0) && out_i16.iter().any(|v| *v != 0));
+
+    // A filter swap, sent from the control side outside the no-allocation zone.
+    control
+        .send(inverse_set(&resonant_line(), CHANNELS, 2))
+        .expect("inbox has room");
+    for _ in 0..20 {
+        assert_no_alloc(|| {
+            capture.on_input(&block);
+            playback.on_output(&mut out);
+        });
+    }
+    assert_eq!(
+        control.snapshot().swaps_completed,
+        1,
+        "the swap did not finish"
+    );
+
+    // Long buffers on both sides, in step: still nothing lost.
+    for _ in 0..10 {
+        assert_no_alloc(|| {
+            capture.on_input(&long);
+            playback.on_output(&mut out_long);
+        });
+    }
+    assert_eq!((overruns(), underruns()), (0, 0));
+
+    // The ring now holds exactly its prefill. Capture alone: two periods fill it, the next
+    // eight are dropped whole.
+    for _ in 0..10 {
+        assert_no_alloc(|| capture.on_input(&block_i16));
+    }
+    assert_eq!(overruns(), (8 * PERIOD * CHANNELS) as u64);
+
+    // Playback alone: four periods drain the full ring, the next three are silence.
+    for _ in 0..7 {
+        assert_no_alloc(|| playback.on_output(&mut out_i16));
+    }
+    assert_eq!(underruns(), (3 * PERIOD * CHANNELS) as u64);
+    assert!(
+        out_i16.iter().all(|v| *v == 0),
+        "an underrun must play silence"
+    );
+
+    assert_eq!(
+        violation_count(),
+        0,
+        "the live callbacks allocated or freed memory"
+    );
+
+    // The detector itself works: one allocation inside the zone is counted.
+    assert_no_alloc(|| drop(std::hint::black_box(Vec::<u8>::with_capacity(8))));
+    assert!(violation_count() > 0, "the allocation detector saw nothing");
+}
+
+// Expected values: the same filter set run offline by `Equalizer::process_interleaved` from
+// fresh state. Both run the same f64 recursion on the same f32 input and round once to f32, so
+// they agree bit for bit; the one intended difference is the engine's fade-in, which with
+// `fade_in_samples = 1` silences frame 0 only.
+#[test]
+fn sides_deliver_the_engine_output_in_order_behind_the_prefill() {
+    for device_is_i16 in [false, true] {
+        let mut settings = EngineSettings::defaults(CHANNELS, 48_000.0);
+        settings.fade_in_samples = 1;
+        let set = inverse_set(&resonant_line(), CHANNELS, 1);
+        let mut offline = set.clone();
+        let (engine, control) = engine_pair(settings, Some(set));
+        let (mut capture, mut playback, plan) = duplex_sides(engine, control.stats(), PERIOD);
+
+        // Irregular block sizes; playback takes each block back in two pieces of other sizes,
+        // so the ring wanders around its prefill and never over- or underruns.
+        let frames = 20 * PERIOD;
+        let mut input = sine(frames, CHANNELS, 700.0, 0.25, 0);
+        if device_is_i16 {
+            // What an i16 device would deliver, as the engine sees it.
+            input = to_i16(&input).iter().map(|v| v.to_f32()).collect();
+        }
+        let mut expected = vec![0.0f32; input.len()];
+        offline.process_interleaved(&input, &mut expected);
+        expected[..CHANNELS].fill(0.0);
+
+        let mut played: Vec<f32> = Vec::new();
+        let sizes = [100, 256, 37, 300, 256, 90];
+        let mut at = 0;
+        for (i, size) in sizes.iter().cycle().enumerate() {
+            if at >= frames {
+                break;
+            }
+            let n = (*size).min(frames - at);
+            let chunk = &input[at * CHANNELS..(at + n) * CHANNELS];
+            let first = sizes[(i + 3) % sizes.len()] % n;
+            if device_is_i16 {
+                capture.on_input(&to_i16(chunk));
+                for piece in [first, n - first] {
+                    let mut out = vec![0i16; piece * CHANNELS];
+                    playback.on_output(&mut out);
+                    played.extend(out.iter().map(|v| v.to_f32()));
+                }
+            } else {
+                capture.on_input(chunk);
+                for piece in [first, n - first] {
+                    let mut out = vec![0.0f32; piece * CHANNELS];
+                    playback.on_output(&mut out);
+                    played.extend(out);
+                }
+            }
+            at += n;
+        }
+        let snap = control.snapshot();
+        assert_eq!((snap.input_overruns, snap.output_underruns), (0, 0));
+
+        let prefill = plan.prefill_frames() * CHANNELS;
+        assert!(played.len() > prefill + 1000);
+        assert!(
+            played[..prefill].iter().all(|v| *v == 0.0),
+            "prefill is silence"
+        );
+        let body = &played[prefill..];
+        let want: Vec<f32> = if device_is_i16 {
+            // The playback device quantizes the engine's output once more.
+            expected[..body.len()]
+                .iter()
+                .map(|v| i16::from_f32(*v).to_f32())
+                .collect()
+        } else {
+            expected[..body.len()].to_vec()
+        };
+        assert_eq!(body, &want[..], "i16 device: {device_is_i16}");
+    }
+}
