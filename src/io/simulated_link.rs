@@ -118,7 +118,6 @@ mod tests {
                     inverse: InversePolicy::default(),
                 })
                 .collect(),
-            runtime: Default::default(),
         }
     }
 
