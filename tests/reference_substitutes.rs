@@ -4,7 +4,9 @@
 //! scripts/reference/make_substitute_fixtures.py with numpy 2.4.6 and scipy 1.17.1 (pinned in
 //! scripts/reference/requirements.txt and recorded in every file);
 //! scripts/reference/check_fixtures.sh regenerates them and diffs. The channels are invented
-//! links of our own with no exact stable inverse, or one that boosts too much. Every number
+//! links of our own with no exact stable inverse, or one that boosts too much (among them two
+//! tone traps: zeros on the circle with poles just inside them, whose capped inverse has a
+//! resonance only ~4e-5 rad wide). Every number
 //! compared here came out of numpy or scipy, not out of redress.
 //!
 //! Four things are checked: reflecting zeros outside the circle (magnitude kept, scipy's
@@ -225,10 +227,12 @@ struct SearchCase {
 }
 
 /// The channels make_substitute_fixtures.py defines; a missing fixture is a failure, not a skip.
-const CHANNELS: [&str; 4] = [
+const CHANNELS: [&str; 6] = [
     "north_mast_maxphase_fir",
     "quarry_hop_two_reflections",
     "ridge_relay_mixed",
+    "ob_van_pilot_trap",
+    "intercom_call_tone_trap",
     "gantry_feed_deep_dip",
 ];
 

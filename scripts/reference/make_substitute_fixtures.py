@@ -69,10 +69,13 @@ PHASE_HZ = [100.0, 1000.0, 5000.0, 10000.0]
 # FFT length for scipy.signal.minimum_phase: the cepstrum of a zero at radius ρ decays like ρⁿ,
 # so the aliasing error is ~ρ^n_fft; 2^20 leaves nothing of even the 0.9995 pair (e^−524).
 MINIMUM_PHASE_N_FFT = 1 << 20
+# Zeros closer to the circle than this leave scipy.signal.minimum_phase out of a fixture.
+CEPSTRAL_MARGIN = 1e-4
 # Dense grid for peak searches (then refined by scipy.optimize.minimize_scalar).
 PEAK_POINTS = 1 << 16
-# Maxima of the inverse within this many dB of the grid's largest are refined.
-PEAK_CANDIDATE_DB = 0.01
+# Grid maxima within this many dB of the grid's largest are refined (a narrow resonance
+# sampled off its centre can look this much lower than it is).
+PEAK_CANDIDATE_DB = 30.0
 # Bisection on the capped radius stops when the bracket is this narrow.
 RADIUS_BRACKET = 1e-13
 
@@ -83,7 +86,8 @@ FUNCTIONS = {
     "scipy_minimum_phase": "scipy.signal.minimum_phase(method='homomorphic', half=False)",
     "all_pass_group_delay": "scipy.signal.group_delay((B, B_min))",
     "all_pass_phase": "numpy.angle of scipy.signal.freqz(B) / scipy.signal.freqz(B_min)",
-    "peak": "scipy.signal.freqz (dense grid) refined by scipy.optimize.minimize_scalar",
+    "peak": "scipy.signal.freqz (dense grid); grid maxima and pole angles (numpy.roots) refined "
+    "by scipy.optimize.minimize_scalar",
     "capped_radius": "bisection of our own on the freqz peak",
     "lstsq_taps": "numpy.linalg.lstsq on scipy.linalg.convolution_matrix (augmented for lambda)",
     "toeplitz_taps": "scipy.linalg.solve_toeplitz on the normal equations",
@@ -105,6 +109,8 @@ def pair(radius, angle):
 def channels():
     """(name, scenario, b, a): channels with no exact inverse, or one that boosts too much."""
     trap = 2.0 * math.pi * 5200.0 / SAMPLE_RATE
+    pilot = 2.0 * math.pi * 2400.0 / SAMPLE_RATE
+    call_tone = 2.0 * math.pi * 1837.0 / SAMPLE_RATE
     return [
         (
             "north_mast_maxphase_fir",
@@ -128,6 +134,20 @@ def channels():
             [1.0, -0.25],
         ),
         (
+            "ob_van_pilot_trap",
+            "outside-broadcast van feed with its 2.4 kHz pilot-tone trap still in line: zeros "
+            "on the circle, poles at radius 0.999 beside them, and a mild treble lift",
+            list(np.convolve([1.0, 0.3], pair(1.0, pilot))),
+            pair(0.999, pilot),
+        ),
+        (
+            "intercom_call_tone_trap",
+            "intercom feed with a narrow 1837 Hz call-tone trap left in line: zeros on the "
+            "circle, poles at radius 0.9995 beside them, the same mild treble lift",
+            list(np.convolve([1.0, 0.3], pair(1.0, call_tone))),
+            pair(0.9995, call_tone),
+        ),
+        (
             "gantry_feed_deep_dip",
             "feed to the gantry speakers with a deep dip near 4.3 kHz: every zero inside, but "
             "the exact inverse would boost about 26 dB",
@@ -146,11 +166,20 @@ def response(b, a, omegas):
 
 
 def level_db(b, a, omega):
-    return 20.0 * math.log10(abs(response(b, a, [omega])[0]))
+    """|B/A| at ω in dB; +∞ exactly on a pole that sits on the circle."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        value = abs(response(b, a, [omega])[0])
+    return math.inf if not math.isfinite(value) else 20.0 * math.log10(value)
 
 
 def peak(b, a):
-    """Largest |B/A| in dB over 0 ≤ ω ≤ π: dense freqz, then each candidate maximum refined."""
+    """Largest |B/A| in dB over 0 ≤ ω ≤ π, and where.
+
+    A dense freqz finds the neighbourhoods; every local maximum within PEAK_CANDIDATE_DB of the
+    grid's largest, and the angle of every pole (numpy.roots of a), is refined by
+    minimize_scalar. The pole angles matter: a resonance narrower than the grid step (a pole
+    within ~1e-5 of the circle) can sit between grid points and look lower than a broad one.
+    """
     w, h = scipy.signal.freqz(b, a, worN=PEAK_POINTS, include_nyquist=True)
     with np.errstate(divide="ignore"):
         level = 20.0 * np.log10(np.abs(h))
@@ -160,17 +189,20 @@ def peak(b, a):
     left = np.concatenate(([-np.inf], level[:-1]))
     right = np.concatenate((level[1:], [-np.inf]))
     top = float(np.max(level))
-    candidates = np.nonzero((level >= left) & (level >= right) & (top - level < PEAK_CANDIDATE_DB))
-    best = (-math.inf, 0.0)
-    for j in candidates[0]:
-        x = float(w[j])
+    local = np.nonzero((level >= left) & (level >= right) & (top - level < PEAK_CANDIDATE_DB))
+    centres = [float(w[j]) for j in local[0]]
+    poles = np.roots(a) if len(a) > 1 else []
+    centres += sorted(abs(float(np.angle(p))) for p in poles)
+    best = (top, float(w[int(np.argmax(level))]))
+    for x in centres:
         refined = scipy.optimize.minimize_scalar(
             lambda v: -level_db(b, a, v),
             bounds=(max(0.0, x - step), min(math.pi, x + step)),
             method="bounded",
             options={"xatol": 1e-12},
         )
-        for omega, value in ((x, float(level[j])), (float(refined.x), float(-refined.fun))):
+        for omega in (x, float(refined.x)):
+            value = level_db(b, a, omega)
             if value > best[0]:
                 best = (value, omega)
     return best
@@ -238,7 +270,10 @@ def reflection_fixture(numerator, b_min, zeros):
         "b_min": b_min,
         "grid": {"omega": grid, "numerator_magnitude": original},
     }
-    if len(numerator) >= 3:  # scipy.signal.minimum_phase needs at least 3 taps
+    # scipy.signal.minimum_phase needs at least 3 taps, and a zero on (or within ~1e-4 of) the
+    # circle: its cepstrum decays like ρⁿ/n, so no FFT length leaves the aliasing negligible.
+    margin = min(abs(abs(z) - 1.0) for z in zeros)
+    if len(numerator) >= 3 and margin > CEPSTRAL_MARGIN:
         with warnings.catch_warnings():
             # It warns that h is not symmetric: it expects a linear-phase filter, but the
             # homomorphic route does not rely on that.
@@ -281,12 +316,12 @@ def default_policy_fixture(a, numerator, grid):
     outside zeros, then clamp every zero beyond ρ to radius ρ for the largest ρ that keeps the
     inverse's peak at or under the cap (redress::design::cap_boost's documented rule)."""
     b_min, zeros, outside = reflected(numerator)
-    exact_peak, _ = peak(a, numerator)
-    if outside == 0 and exact_peak <= DEFAULT_CAP_DB:
+    on_circle = any(abs(abs(z) - 1.0) <= CIRCLE_TOLERANCE for z in zeros)
+    if outside == 0 and not on_circle and peak(a, numerator)[0] <= DEFAULT_CAP_DB:
         method, radius, b_capped = "exact", None, list(numerator)
     else:
         method = "minimum_phase"
-        if peak(a, b_min)[0] <= DEFAULT_CAP_DB:
+        if not on_circle and peak(a, b_min)[0] <= DEFAULT_CAP_DB:
             radius, b_capped = None, b_min
         else:
             radius = cap_radius(a, b_min[0], zeros, DEFAULT_CAP_DB)
@@ -508,31 +543,41 @@ def budget_case(name, b, taps, budget_seconds, cap_db):
     return case
 
 
+# (channel, taps L, delay D, regularization λ): fixed-delay solutions.
+FIR_FIXED = [
+    ("north_mast_maxphase_fir", 32, 20, 0.0),
+    ("north_mast_maxphase_fir", 64, 40, 1e-3),
+    ("quarry_hop_two_reflections", 96, 50, 0.0),
+    ("quarry_hop_two_reflections", 128, 5, 1e-4),
+    ("ridge_relay_mixed", 80, 30, 1e-2),
+    ("gantry_feed_deep_dip", 48, 0, 0.0),
+]
+# (channel, taps L, largest delay, regularization λ): exhaustive delay searches.
+FIR_SEARCH = [
+    ("north_mast_maxphase_fir", 24, 25, 0.0),
+    ("quarry_hop_two_reflections", 64, 70, 0.0),
+    ("quarry_hop_two_reflections", 64, 70, 1e-3),
+    ("ridge_relay_mixed", 64, 80, 1e-2),
+]
+# (FIR channel, taps L, latency budget in seconds, boost cap in dB): the policy's own search.
+FIR_BUDGET = [
+    ("quarry_hop_two_reflections", 48, 0.0005, 60.0),
+    ("north_mast_maxphase_fir", 40, 0.010, 60.0),
+]
+
+
 def least_squares_fixture():
     by_name = {name: (b, a) for name, _, b, a in channels()}
-    h = {name: impulse_response(*by_name[name]) for name in by_name}
-    fixed = [
-        fixed_case("north_mast_maxphase_fir", h["north_mast_maxphase_fir"], 32, 20, 0.0),
-        fixed_case("north_mast_maxphase_fir", h["north_mast_maxphase_fir"], 64, 40, 1e-3),
-        fixed_case("quarry_hop_two_reflections", h["quarry_hop_two_reflections"], 96, 50, 0.0),
-        fixed_case("quarry_hop_two_reflections", h["quarry_hop_two_reflections"], 128, 5, 1e-4),
-        fixed_case("ridge_relay_mixed", h["ridge_relay_mixed"], 80, 30, 1e-2),
-        fixed_case("gantry_feed_deep_dip", h["gantry_feed_deep_dip"], 48, 0, 0.0),
-    ]
-    search = [
-        search_case("north_mast_maxphase_fir", h["north_mast_maxphase_fir"], 24, 25, 0.0),
-        search_case("quarry_hop_two_reflections", h["quarry_hop_two_reflections"], 64, 70, 0.0),
-        search_case("quarry_hop_two_reflections", h["quarry_hop_two_reflections"], 64, 70, 1e-3),
-        search_case("ridge_relay_mixed", h["ridge_relay_mixed"], 64, 80, 1e-2),
-    ]
-    budget = [
-        budget_case("quarry_hop_two_reflections", by_name["quarry_hop_two_reflections"][0],
-                    48, 0.0005, 60.0),
-        budget_case("north_mast_maxphase_fir", by_name["north_mast_maxphase_fir"][0],
-                    40, 0.010, 60.0),
-    ]
-    return {"fixed_delay": fixed, "delay_search": search, "budget_search": budget,
-            "source": source()}
+    used = {case[0] for case in FIR_FIXED + FIR_SEARCH}
+    h = {name: impulse_response(*by_name[name]) for name in sorted(used)}
+    return {
+        "fixed_delay": [fixed_case(name, h[name], *rest) for name, *rest in FIR_FIXED],
+        "delay_search": [search_case(name, h[name], *rest) for name, *rest in FIR_SEARCH],
+        "budget_search": [
+            budget_case(name, by_name[name][0], *rest) for name, *rest in FIR_BUDGET
+        ],
+        "source": source(),
+    }
 
 
 # --- Writing and checking. -----------------------------------------------------------------

@@ -10,8 +10,9 @@ use num_complex::Complex64;
 /// Points of the peak grid over [0, π] (plus one for π itself).
 pub const GRID_POINTS: usize = 1 << 16;
 
-/// Local maxima within this many dB of the grid's largest are refined.
-const CANDIDATE_DB: f64 = 0.5;
+/// Local maxima within this many dB of the grid's largest are refined: a resonance narrower
+/// than the grid step, sampled off its centre, can look this much lower than it is.
+const CANDIDATE_DB: f64 = 30.0;
 
 /// At most this many candidates are refined (the highest first).
 const MAX_CANDIDATES: usize = 64;
