@@ -56,6 +56,9 @@ SAMPLE_RATE = common.SAMPLE_RATE
 CIRCLE_TOLERANCE = common.CIRCLE_TOLERANCE
 # Boost cap of redress's default policy (redress::model::policy::DEFAULT_BOOST_CAP_DB).
 DEFAULT_CAP_DB = 20.0
+# redress::design::CAP_MARGIN_DB: the cap's search aims this far under the cap, so rounding in
+# the final coefficients cannot lift the peak over it.
+CAP_MARGIN_DB = 1e-6
 # redress::design::RADIUS_FLOOR: the cap never pulls zeros in below this radius.
 RADIUS_FLOOR = 0.5
 # Grid for |B| and |G|: evenly spaced, plus the angle of every zero in the upper half-plane.
@@ -217,13 +220,14 @@ def clamp(roots, rho):
 
 
 def cap_radius(a, gain, roots, cap_db):
-    """Largest ρ with peak(A / (gain·Π(1 − clamp(z, ρ)z⁻¹))) ≤ cap: our own bisection."""
+    """Largest ρ with peak(A / (gain·Π(1 − clamp(z, ρ)z⁻¹))) ≤ cap − margin: our own bisection."""
+    target = cap_db - CAP_MARGIN_DB
     largest = max(abs(z) for z in roots)
     lo, hi = min(RADIUS_FLOOR, largest), largest
-    assert peak(a, poly_from_roots(gain, clamp(roots, lo)))[0] <= cap_db, "cap needs a level cut"
+    assert peak(a, poly_from_roots(gain, clamp(roots, lo)))[0] <= target, "cap needs a level cut"
     while hi - lo > RADIUS_BRACKET:
         mid = 0.5 * (lo + hi)
-        if peak(a, poly_from_roots(gain, clamp(roots, mid)))[0] <= cap_db:
+        if peak(a, poly_from_roots(gain, clamp(roots, mid)))[0] <= target:
             lo = mid
         else:
             hi = mid
@@ -321,7 +325,7 @@ def default_policy_fixture(a, numerator, grid):
         method, radius, b_capped = "exact", None, list(numerator)
     else:
         method = "minimum_phase"
-        if not on_circle and peak(a, b_min)[0] <= DEFAULT_CAP_DB:
+        if not on_circle and peak(a, b_min)[0] <= DEFAULT_CAP_DB - CAP_MARGIN_DB:
             radius, b_capped = None, b_min
         else:
             radius = cap_radius(a, b_min[0], zeros, DEFAULT_CAP_DB)
@@ -396,7 +400,7 @@ def pair_case(radius, omega0, cap_db):
     case = {"radius": radius, "omega0": omega0, "cap_db": cap_db}
     if math.isfinite(uncapped):  # left out for a pair on the circle (unbounded boost)
         case["uncapped_peak_db"] = uncapped
-    if uncapped <= cap_db:
+    if uncapped <= cap_db - CAP_MARGIN_DB:
         case["capped_peak_db"], case["capped_peak_omega"] = peak([1.0], pair(radius, omega0))
         return case
     capped = cap_radius([1.0], 1.0, zeros, cap_db)
