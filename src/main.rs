@@ -6,8 +6,8 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 use redress::control::{
-    default_socket_path, init_logging, query_status, render_status_text, run_service,
-    ServiceError, ServiceOptions, SourceChoice,
+    default_socket_path, init_logging, query_status, render_status_text, run_service, ServiceError,
+    ServiceOptions, SourceChoice,
 };
 use redress::io::{self, FileRunOptions, FileRunSummary, ProgrammeSpec};
 use redress::model::config::{load_link, parse_link};

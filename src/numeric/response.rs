@@ -167,7 +167,11 @@ mod tests {
         let closed = -20.0
             * ((1.0 - r) * (Complex64::new(1.0, 0.0) - Complex64::from_polar(r, -2.0 * w0)).norm())
                 .log10();
-        assert!((p.level_db - closed).abs() < 0.01, "{} vs {closed}", p.level_db);
+        assert!(
+            (p.level_db - closed).abs() < 0.01,
+            "{} vs {closed}",
+            p.level_db
+        );
         assert!((p.omega - w0).abs() < 1e-3);
     }
 
