@@ -140,11 +140,82 @@ pub fn analyse(recording: &LoopRecording, signal: &[f32], options: &RoundTripOpt
     out.found = true;
     out.round_trip_ms = Some(1000.0 * seconds);
     out.round_trip_frames = Some(seconds * rate);
-    if let (Some(o), Some(i)) = (out.output_share_ms, out.input_share_ms) {
-        out.unreported_ms = Some(1000.0 * seconds - o - i);
-    }
     out.note = "measured from the output callback to the input callback; accurate to about one \
                 period of either stream (callback timing)"
         .into();
+    if let (Some(o), Some(i)) = (out.output_share_ms, out.input_share_ms) {
+        let rest = 1000.0 * seconds - o - i;
+        out.unreported_ms = Some(rest);
+        if rest < 0.0 {
+            out.note.push_str(
+                "; the backend's reported shares add up to more than the measured total: they \
+                 are its own estimates (buffer fill levels), not measurements",
+            );
+        }
+    }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn options() -> RoundTripOptions {
+        RoundTripOptions {
+            input_device: "in".into(),
+            output_device: "out".into(),
+            sample_rate: 48_000,
+            channels: 1,
+            buffer_frames: Some(256),
+            settle: Duration::from_millis(0),
+            max_round_trip: Duration::from_secs(1),
+        }
+    }
+
+    // Source: the definition above, worked by hand on a synthetic recording — the signal is
+    // sent at 1.000 s and starts at capture frame 48 960; input callbacks of 256 frames at
+    // 48 kHz, callback k delivering frames 256k … 256k + 255 at (k + 1)·256/48 000 s. Frame
+    // 48 960 comes with callback 191 (frames 48 896 … 49 151) at 1.024 s, 191 frames before
+    // that buffer's newest, so it is handed back at 1.024 − 191/48 000 = 1.020 021 s: a round
+    // trip of 20.02 ms, of which 8 + 5 ms are the reported shares.
+    #[test]
+    fn round_trip_from_a_synthetic_loop() {
+        let signal = mls(MLS_ORDER);
+        let frames = 96_000;
+        let mut captured = vec![0.0f32; frames];
+        let start = 48_960;
+        for (i, v) in signal.iter().enumerate() {
+            captured[start + i] = 0.1 * v;
+        }
+        let input_callbacks = (0..frames / 256)
+            .map(|k| ((k + 1) as f64 * 256.0 / 48_000.0, k * 256, 256))
+            .collect();
+        let recording = LoopRecording {
+            input_device: "in".into(),
+            output_device: "out".into(),
+            input_period_frames: 256,
+            output_period_frames: 256,
+            captured,
+            input_callbacks,
+            signal_sent_at: Some(1.0),
+            output_latency_s: Some(0.008),
+            input_latency_s: Some(0.005),
+        };
+        let r = analyse(&recording, &signal, &options());
+        assert!(r.found, "{}", r.note);
+        let expected_ms = 1000.0 * (49_152.0 / 48_000.0 - 191.0 / 48_000.0 - 1.0);
+        assert!((r.round_trip_ms.unwrap() - expected_ms).abs() < 1e-9);
+        assert!((expected_ms - 20.020_833).abs() < 1e-5);
+        assert!((r.unreported_ms.unwrap() - (expected_ms - 13.0)).abs() < 1e-9);
+
+        // Nothing came back: said so, no figure.
+        let silent = LoopRecording {
+            captured: vec![0.0; frames],
+            ..recording
+        };
+        let r = analyse(&silent, &signal, &options());
+        assert!(!r.found);
+        assert!(r.round_trip_ms.is_none());
+        assert!(r.note.contains("looped back"), "{}", r.note);
+    }
 }

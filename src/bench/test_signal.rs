@@ -7,9 +7,9 @@
 
 /// One period of the maximum-length sequence of order `order` (2…20), as ±1.
 ///
-/// Fibonacci shift register with feedback taps from the table of maximal-length taps (Xilinx
-/// application note XAPP052, from memory) for the orders used here; other orders fall back to
-/// order 13.
+/// Fibonacci shift register (shifting towards bit 0, tap t reading bit n − t) with feedback
+/// taps from the table of maximal-length taps (Xilinx application note XAPP052, from memory)
+/// for the orders used here; other orders fall back to order 13.
 pub fn mls(order: u32) -> Vec<f32> {
     let (order, taps): (u32, &[u32]) = match order {
         10 => (10, &[10, 7]),
@@ -25,7 +25,7 @@ pub fn mls(order: u32) -> Vec<f32> {
     for _ in 0..length {
         let bit = taps
             .iter()
-            .fold(0, |acc, &t| acc ^ ((register >> (t - 1)) & 1));
+            .fold(0, |acc, &t| acc ^ ((register >> (order - t)) & 1));
         out.push(if register & 1 == 1 { 1.0 } else { -1.0 });
         register = (register >> 1) | (bit << (order - 1));
     }
