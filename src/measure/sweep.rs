@@ -61,14 +61,25 @@ pub fn sweep_inverse_filter(
     inverse
 }
 
-/// The impulse response from a recording of the sweep: `recording ∗ inverse`, read from the
-/// sample where an undelayed response would peak (index `sweep length − 1` of the convolution),
-/// `length` samples long.
-pub fn deconvolve_sweep(recording: &[f64], inverse: &[f64], length: usize) -> Vec<f64> {
+/// The impulse response from a recording of the sweep: `recording ∗ inverse`, starting
+/// `before` samples ahead of where an undelayed response would peak (index `sweep length − 1`
+/// of the convolution), `length` samples long. The band-limited impulse that sweep ∗ inverse
+/// makes is nearly zero-phase, so it reaches before its peak; `before` keeps that part.
+pub fn deconvolve_sweep(
+    recording: &[f64],
+    inverse: &[f64],
+    before: usize,
+    length: usize,
+) -> Vec<f64> {
     let full = super::fft::convolve(recording, inverse);
-    let start = inverse.len().saturating_sub(1);
+    let centre = inverse.len().saturating_sub(1);
     (0..length)
-        .map(|k| full.get(start + k).copied().unwrap_or(0.0))
+        .map(|k| {
+            (centre + k)
+                .checked_sub(before)
+                .and_then(|i| full.get(i).copied())
+                .unwrap_or(0.0)
+        })
         .collect()
 }
 
