@@ -91,7 +91,11 @@ impl RunningAudio {
                     );
                 }
                 let block = config.input_period_frames as usize;
-                (Driver::Devices(Box::new(streams)), config.to_string(), Some(block))
+                (
+                    Driver::Devices(Box::new(streams)),
+                    config.to_string(),
+                    Some(block),
+                )
             }
         };
         Ok(Self {
