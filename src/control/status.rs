@@ -185,7 +185,7 @@ pub fn render_status_text(doc: &Value) -> String {
         if before.is_finite() && after.is_finite() {
             out.push_str(&format!(
                 "link error   {before:.1} dB before correction, {after:.1} dB after (running, \
-                 1 s window)\n"
+                 0.25 s window)\n"
             ));
         } else {
             out.push_str("link error   not measured yet (settling)\n");

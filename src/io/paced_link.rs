@@ -19,7 +19,7 @@ use crate::model::Link;
 const PROGRAMME_SECONDS: f64 = 8.0;
 
 /// Time constant of the running error measures (seconds).
-const ERROR_WINDOW_SECONDS: f64 = 1.0;
+const ERROR_WINDOW_SECONDS: f64 = 0.25;
 
 /// The error measures start after this long (seconds): the engine's start-up fade-in and the
 /// filters' first transient are not what the link does to programme.
@@ -28,7 +28,7 @@ const SETTLE_SECONDS: f64 = 0.25;
 /// Running figures of a paced link, readable from any thread.
 #[derive(Debug)]
 pub struct PacedFigures {
-    /// f64 bits: error of the link's output against the original, dB (running, ~1 s window).
+    /// f64 bits: error of the link's output against the original, dB (running, ~0.25 s window).
     error_before_db: AtomicU64,
     /// f64 bits: error of the equalized output against the original, dB.
     error_after_db: AtomicU64,
