@@ -312,3 +312,22 @@ fn the_sweep_inverse_filter_deconvolves_the_impulse_response() {
     assert!(error_db < -25.0, "deconvolution error {error_db:.1} dB");
     eprintln!("sweep deconvolution: response error {error_db:.1} dB");
 }
+
+#[test]
+fn the_fitted_config_reads_back_to_exactly_the_fitted_numbers() {
+    // Shortest round-trip formatting of f64 (common practice: Rust's `{:?}` for f64) means the
+    // config holds the fit bit for bit; `check` and `apply` run the model that was measured.
+    let f = fixture("quarry_hop_ringing");
+    let outcome = measure(
+        &f,
+        sweep_1s(f.sample_rate),
+        30.0,
+        IdentifySettings::default(),
+    );
+    let (b, a) = outcome.identification.channel_model(0);
+    let path = &outcome.link.paths[0];
+    assert_eq!(path.channel.b, b);
+    assert_eq!(path.channel.a, a);
+    assert!(outcome.plan.is_runnable(), "{:?}", outcome.plan.problems());
+    assert!(outcome.config_text.contains("# delay     300 frames"));
+}
