@@ -4,6 +4,7 @@
 use std::fmt::Write;
 
 use super::identify::Identification;
+use crate::io::format_db;
 
 /// Where the measurement came from, for the header.
 #[derive(Debug, Clone, PartialEq)]
@@ -28,8 +29,11 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
     );
     let _ = writeln!(
         t,
-        "# stimulus  {}: {} frames of signal at {} Hz, peak {:.1} dBFS",
-        sources.stimulus, sources.stimulus_frames, id.sample_rate, sources.stimulus_peak_dbfs
+        "# stimulus  {}: {} frames of signal at {} Hz, peak {} dBFS",
+        sources.stimulus,
+        sources.stimulus_frames,
+        id.sample_rate,
+        format!("{:.1}", sources.stimulus_peak_dbfs).replace('-', "−")
     );
     let _ = writeln!(
         t,
@@ -73,11 +77,11 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
         };
         let _ = writeln!(
             t,
-            "# channel {c} SNR {:.1} dB; {band}; model error {:.1} dB; FIR residual {:.1} dB with \
-             {} taps; onset +{} frames",
+            "# channel {c} SNR {:.1} dB; {band}; model error {}; FIR residual {} with {} taps; \
+             onset +{} frames",
             fit.snr_db,
-            fit.model_error_db(),
-            fit.fir.residual_db(),
+            format_db(fit.model_error_db()),
+            format_db(fit.fir.residual_db()),
             fit.fir.taps.len(),
             id.relative_delays[c]
         );

@@ -106,9 +106,11 @@ impl StimulusSpec {
         };
         format!(
             "{what}, peak {} dBFS, {} ms fades, {} s of silence after, {} Hz",
-            self.level_dbfs, self.fade_ms, self.silence_seconds, self.sample_rate
+            self.level_dbfs.to_string().replace('-', "−"),
+            self.fade_ms,
+            self.silence_seconds,
+            self.sample_rate
         )
-        .replace('-', "−")
     }
 
     /// Checks every setting against its range.
