@@ -168,7 +168,13 @@ fn identify_channel(
         &response[search_from..],
         FirLength::Fixed(found.peak_lag - search_from + 64),
     )?;
-    let onset = search_from + onset_of(&first_look, stimulus);
+    let first_tap = onset_of(&first_look, stimulus);
+    if first_tap == 0 && search_from > 0 {
+        warnings.push(format!(
+            "{response_name}, channel {channel}: the response is already under way              {ONSET_SEARCH_FRAMES} frames before its largest sample, the farthest the onset is              searched; a longer build-up is left out of the model"
+        ));
+    }
+    let onset = search_from + first_tap;
     if response.len() < onset + stimulus.len() {
         return Err(too_short(onset));
     }

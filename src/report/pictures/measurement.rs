@@ -79,10 +79,11 @@ pub fn draw_measurement(
         &measured,
         CHANNEL,
         format!("measured ({}-tap least-squares FIR)", fit.fir.taps.len()),
+        false,
         file,
     )?;
     if fit.iir.is_some() {
-        line(&mut chart, &freqs, &model, INVERSE, model_name, file)?;
+        line(&mut chart, &freqs, &model, INVERSE, model_name, true, file)?;
     }
     legend(&mut chart, file)?;
 
@@ -198,21 +199,28 @@ fn mesh(chart: &mut FreqChart<'_, '_>, y_name: &str, file: &Path) -> Result<(), 
         .map_err(failed(file))
 }
 
+/// A curve over frequency; `dashed` for one drawn over another it may hide.
 fn line(
     chart: &mut FreqChart<'_, '_>,
     freqs: &[f64],
     values: &[f64],
     color: RGBColor,
     name: String,
+    dashed: bool,
     file: &Path,
 ) -> Result<(), PictureError> {
-    let points = freqs
+    let points: Vec<(f64, f64)> = freqs
         .iter()
         .zip(values)
         .filter(|(_, v)| v.is_finite())
-        .map(|(f, v)| (*f, *v));
-    chart
-        .draw_series(LineSeries::new(points, color.stroke_width(2)))
+        .map(|(f, v)| (*f, *v))
+        .collect();
+    let drawn = if dashed {
+        chart.draw_series(DashedLineSeries::new(points, 10, 6, color.stroke_width(3)))
+    } else {
+        chart.draw_series(LineSeries::new(points, color.stroke_width(2)))
+    };
+    drawn
         .map_err(failed(file))?
         .label(name)
         .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(2)));
