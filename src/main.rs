@@ -5,6 +5,10 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+use redress::control::{
+    default_socket_path, init_logging, query_status, render_status_text, run_service, ServiceError,
+    ServiceOptions, SourceChoice,
+};
 use redress::io::{self, FileRunOptions, FileRunSummary, ProgrammeSpec};
 use redress::model::config::{load_link, parse_link};
 use redress::model::Link;
@@ -106,6 +110,42 @@ enum Command {
         #[arg(long, default_value_t = 5.0)]
         seconds: f64,
     },
+    /// Run the live service: equalize the link continuously. SIGHUP re-reads the config (a bad
+    /// one is logged and the running filters stay), SIGTERM/SIGINT fade out and stop.
+    #[command(after_help = EXIT_CODES)]
+    Run {
+        config: PathBuf,
+        /// Drive the engine from a real-time simulated link instead of sound devices.
+        #[arg(long)]
+        simulate: bool,
+        /// With --simulate: the config describing what the link really does (default: CONFIG).
+        #[arg(long, requires = "simulate", value_name = "FILE")]
+        true_link: Option<PathBuf>,
+        /// Stop by itself after this many seconds.
+        #[arg(long = "for", value_name = "SECONDS")]
+        run_for: Option<f64>,
+        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock).
+        #[arg(long)]
+        socket: Option<PathBuf>,
+        /// More log lines (-v: debug).
+        #[arg(short, long, action = clap::ArgAction::Count, conflicts_with = "quiet")]
+        verbose: u8,
+        /// Errors only.
+        #[arg(short, long)]
+        quiet: bool,
+    },
+    /// Ask a running service what it is doing.
+    #[command(after_help = EXIT_CODES)]
+    Status {
+        /// Print the status document as JSON.
+        #[arg(long)]
+        json: bool,
+        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock).
+        #[arg(long)]
+        socket: Option<PathBuf>,
+    },
+    /// List the audio devices and the configurations they support.
+    Devices,
 }
 
 fn main() -> ExitCode {
@@ -148,6 +188,24 @@ fn main() -> ExitCode {
             skip,
         } => compare(&reference, &test, delay, skip),
         Command::Demo { config, seconds } => demo(config.as_deref(), seconds),
+        Command::Run {
+            config,
+            simulate,
+            true_link,
+            run_for,
+            socket,
+            verbose,
+            quiet,
+        } => run(
+            config,
+            simulate,
+            true_link,
+            run_for,
+            socket,
+            if quiet { -1 } else { verbose as i8 },
+        ),
+        Command::Status { json, socket } => status(json, socket),
+        Command::Devices => devices(),
     };
     ExitCode::from(code)
 }
@@ -289,6 +347,84 @@ fn demo(config: Option<&Path>, seconds: f64) -> u8 {
         Err(e @ io::OfflineError::NotRunnable { .. }) => {
             eprintln!("error: {e}");
             exit::NOT_RUNNABLE
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::FAILED
+        }
+    }
+}
+
+fn run(
+    config: PathBuf,
+    simulate: bool,
+    true_link: Option<PathBuf>,
+    run_for: Option<f64>,
+    socket: Option<PathBuf>,
+    verbosity: i8,
+) -> u8 {
+    init_logging(verbosity);
+    let run_for = match run_for {
+        None => None,
+        Some(s) if s.is_finite() && s > 0.0 => Some(std::time::Duration::from_secs_f64(s)),
+        Some(s) => {
+            eprintln!("error: --for {s}: give a positive number of seconds");
+            return exit::INVALID_CONFIG;
+        }
+    };
+    let options = ServiceOptions {
+        config,
+        socket: socket.unwrap_or_else(default_socket_path),
+        source: if simulate {
+            SourceChoice::Simulated {
+                truth: true_link,
+                seed: 1,
+            }
+        } else {
+            SourceChoice::Devices
+        },
+        run_for,
+    };
+    match run_service(options) {
+        Ok(()) => exit::OK,
+        Err(e @ ServiceError::Config(_)) => {
+            log::error!("{e}");
+            exit::INVALID_CONFIG
+        }
+        Err(e @ ServiceError::NotRunnable(_)) => {
+            log::error!("{e}");
+            exit::NOT_RUNNABLE
+        }
+        Err(e) => {
+            log::error!("{e}");
+            exit::FAILED
+        }
+    }
+}
+
+fn status(json: bool, socket: Option<PathBuf>) -> u8 {
+    let path = socket.unwrap_or_else(default_socket_path);
+    match query_status(&path) {
+        Ok(doc) => {
+            if json {
+                println!("{doc}");
+            } else {
+                print!("{}", render_status_text(&doc));
+            }
+            exit::OK
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::FAILED
+        }
+    }
+}
+
+fn devices() -> u8 {
+    match io::live::list_devices() {
+        Ok(listing) => {
+            print!("{listing}");
+            exit::OK
         }
         Err(e) => {
             eprintln!("error: {e}");

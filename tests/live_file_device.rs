@@ -60,6 +60,7 @@ fn annex_line() -> Link {
         sample_rate: f64::from(RATE),
         channel_count: CHANNELS,
         paths: vec![path],
+        runtime: Default::default(),
     }
 }
 

@@ -1,6 +1,7 @@
 #!/bin/sh
 # Regenerates the reference fixtures in a temporary folder and compares them byte for byte with
-# the committed ones in tests/fixtures/reference. Exits non-zero when they differ.
+# the committed ones: tests/fixtures/reference (make_fixtures.py) and tests/fixtures/substitutes
+# (make_substitute_fixtures.py). Exits non-zero when either differs; both are always checked.
 #
 # The pinned numpy/scipy live in a virtual environment: REDRESS_REFERENCE_VENV names it
 # (default: .venv-reference at the repository root). It is created and filled from
@@ -19,4 +20,8 @@ if [ ! -x "$venv/bin/python" ]; then
 fi
 
 # One BLAS thread: the eigenvalue routines behind numpy.roots then run the same way every time.
-OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1 exec "$venv/bin/python" "$here/make_fixtures.py" --check
+export OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1
+status=0
+"$venv/bin/python" "$here/make_fixtures.py" --check || status=1
+"$venv/bin/python" "$here/make_substitute_fixtures.py" --check || status=1
+exit "$status"

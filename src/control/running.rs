@@ -26,7 +26,7 @@ pub enum AudioSource {
 }
 
 enum Driver {
-    Devices(DuplexStreams),
+    Devices(Box<DuplexStreams>),
     Simulated(PacedLink),
 }
 
@@ -91,7 +91,7 @@ impl RunningAudio {
                     );
                 }
                 let block = config.input_period_frames as usize;
-                (Driver::Devices(streams), config.to_string(), Some(block))
+                (Driver::Devices(Box::new(streams)), config.to_string(), Some(block))
             }
         };
         Ok(Self {

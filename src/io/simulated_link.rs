@@ -117,7 +117,6 @@ mod tests {
                     inverse: InversePolicy::default(),
                 })
                 .collect(),
-            runtime: Default::default(),
         }
     }
 

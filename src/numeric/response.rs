@@ -2,7 +2,10 @@
 
 use num_complex::Complex64;
 
+use std::f64::consts::PI;
+
 use super::poly::eval_z_inverse;
+use super::roots::find_roots;
 
 /// H(e^{jω}) = B(e^{jω}) / A(e^{jω}) at normalised angular frequency ω (radians per sample).
 pub fn response_at(b: &[f64], a: &[f64], omega: f64) -> Complex64 {
@@ -26,13 +29,26 @@ pub struct Peak {
 
 /// Largest |H(e^{jω})| over 0 ≤ ω ≤ π.
 ///
-/// A dense grid finds the neighbourhood (at least 8 points per root, since a sharp resonance of
-/// an order-n system cannot hide between grid points much finer than π/n); then a golden-section
-/// search refines it. Non-finite levels (a pole on the circle) are reported as +∞.
+/// A dense grid finds the broad maxima; a resonance narrower than the grid step can only sit
+/// next to a pole of H, so the angle of every root of A is searched as well. Each candidate is
+/// refined by a golden-section search. Non-finite levels (a pole on the circle) count as +∞.
 pub fn peak_magnitude(b: &[f64], a: &[f64]) -> Peak {
+    let pole_angles: Vec<f64> = if a.len() > 1 && a[0] != 0.0 {
+        find_roots(a)
+            .map(|roots| roots.iter().map(|r| r.angle().abs()).collect())
+            .unwrap_or_default()
+    } else {
+        Vec::new()
+    };
+    peak_magnitude_near(b, a, &pole_angles)
+}
+
+/// As [`peak_magnitude`], with the angles (radians) of A's roots supplied by the caller, who
+/// often knows them already.
+pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
     let order = b.len().max(a.len());
     let points = (8 * order).clamp(4096, 1 << 16);
-    let step = std::f64::consts::PI / points as f64;
+    let step = PI / points as f64;
     let level = |w: f64| {
         let v = magnitude_db(b, a, w);
         if v.is_nan() {
@@ -41,33 +57,50 @@ pub fn peak_magnitude(b: &[f64], a: &[f64]) -> Peak {
             v
         }
     };
-    let mut best = Peak {
+    let mut grid_best = Peak {
         level_db: f64::NEG_INFINITY,
         omega: 0.0,
     };
     for i in 0..=points {
         let w = i as f64 * step;
         let v = level(w);
-        if v > best.level_db {
-            best = Peak {
+        if v > grid_best.level_db {
+            grid_best = Peak {
                 level_db: v,
                 omega: w,
             };
         }
     }
-    if !best.level_db.is_finite() {
-        return best;
+    let mut best = refine(&level, grid_best, step);
+    for &angle in pole_angles {
+        let w = angle.clamp(0.0, PI);
+        let candidate = refine(
+            &level,
+            Peak {
+                level_db: level(w),
+                omega: w,
+            },
+            step,
+        );
+        if candidate.level_db > best.level_db {
+            best = candidate;
+        }
     }
-    // Golden-section refinement in the bracket around the best grid point.
-    let (mut lo, mut hi) = (
-        (best.omega - step).max(0.0),
-        (best.omega + step).min(std::f64::consts::PI),
-    );
+    best
+}
+
+/// Golden-section refinement of a maximum in [ω − step, ω + step]; never returns less than the
+/// starting point.
+fn refine(level: &impl Fn(f64) -> f64, start: Peak, step: f64) -> Peak {
+    if !start.level_db.is_finite() {
+        return start;
+    }
+    let (mut lo, mut hi) = ((start.omega - step).max(0.0), (start.omega + step).min(PI));
     let ratio = (5.0_f64.sqrt() - 1.0) / 2.0;
     let mut x1 = hi - ratio * (hi - lo);
     let mut x2 = lo + ratio * (hi - lo);
     let (mut f1, mut f2) = (level(x1), level(x2));
-    for _ in 0..60 {
+    for _ in 0..80 {
         if f1 > f2 {
             hi = x2;
             x2 = x1;
@@ -84,13 +117,14 @@ pub fn peak_magnitude(b: &[f64], a: &[f64]) -> Peak {
     }
     let w = 0.5 * (lo + hi);
     let v = level(w);
-    if v > best.level_db {
-        best = Peak {
+    if v > start.level_db {
+        Peak {
             level_db: v,
             omega: w,
-        };
+        }
+    } else {
+        start
     }
-    best
 }
 
 /// Group delay −dφ/dω of B(z)/A(z) in samples at ω, computed exactly from the coefficients:
@@ -123,6 +157,24 @@ mod tests {
     }
 
     // Source: common practice — a pure delay z⁻ᴰ has group delay D everywhere.
+    // Source: common practice — a pole pair at radius 0.9999 makes a resonance about 2e-4 rad
+    // wide, narrower than the grid step; its peak 1/|A(e^{jω₀})| ≈ 1/((1−r)·|1 − r·e^{−j2ω₀}|).
+    #[test]
+    fn narrow_resonance_between_grid_points_is_found() {
+        let (r, w0) = (0.9999_f64, 0.240_46_f64);
+        let a = [1.0, -2.0 * r * w0.cos(), r * r];
+        let p = peak_magnitude(&[1.0], &a);
+        let closed = -20.0
+            * ((1.0 - r) * (Complex64::new(1.0, 0.0) - Complex64::from_polar(r, -2.0 * w0)).norm())
+                .log10();
+        assert!(
+            (p.level_db - closed).abs() < 0.01,
+            "{} vs {closed}",
+            p.level_db
+        );
+        assert!((p.omega - w0).abs() < 1e-3);
+    }
+
     #[test]
     fn pure_delay_group_delay() {
         let b = [0.0, 0.0, 0.0, 1.0];
