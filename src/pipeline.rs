@@ -126,6 +126,23 @@ fn realize_safely(
     design: &InverseDesign,
     path: &Path,
 ) -> (Result<Realization, RealizeError>, Option<StructureSwitch>) {
+    // An FIR inverse has no poles for rounding to move: run it as the plain tapped delay line
+    // (direct form), which is exact, cheapest and needs no root finding.
+    if design.inverse.a.len() == 1 && path.structure != Structure::DirectForm2T {
+        let switch = StructureSwitch {
+            requested: path.structure,
+            used: Structure::DirectForm2T,
+            reason: "the inverse is FIR: it has no poles to protect, so it runs as a direct-form \
+                     tapped delay line, exact and always stable"
+                .to_string(),
+        };
+        let result = checked(realize(
+            &design.inverse,
+            Structure::DirectForm2T,
+            path.precision,
+        ));
+        return (result, Some(switch));
+    }
     let first = checked(realize(&design.inverse, path.structure, path.precision));
     let reason = match &first {
         Ok(_) => return (first, None),

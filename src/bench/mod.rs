@@ -10,7 +10,6 @@ mod algorithmic_latency;
 mod callback_timing;
 mod render;
 mod round_trip;
-mod test_signal;
 
 use serde::Serialize;
 
@@ -18,7 +17,6 @@ pub use algorithmic_latency::{channel_latencies, ChannelLatency};
 pub use callback_timing::{percentile, time_callbacks, CallbackTiming};
 pub use render::render_text;
 pub use round_trip::{analyse, measure_round_trip, RoundTrip, RoundTripOptions};
-pub use test_signal::{find_delay, mls};
 
 use crate::engine::{EngineError, Equalizer};
 use crate::io::live::{RingPlan, PREFILL_PERIODS};

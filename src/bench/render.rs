@@ -81,7 +81,7 @@ pub fn render_text(r: &BenchReport) -> String {
         let _ = writeln!(s, "  test signal       {}", rt.signal);
         match (rt.found, rt.round_trip_ms, rt.round_trip_frames) {
             (true, Some(ms), Some(frames)) => {
-                let _ = writeln!(s, "  measured          {ms:.2} ms ({frames:.0} frames), signal found {:.1} dB clear", rt.clarity_db.unwrap_or(0.0));
+                let _ = writeln!(s, "  measured          {ms:.2} ms ({frames:.0} frames), correlation peak {:.1} dB above its RMS", rt.clarity_db.unwrap_or(0.0));
             }
             _ => {
                 let _ = writeln!(s, "  measured          not found");

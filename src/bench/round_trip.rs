@@ -6,16 +6,21 @@ use std::time::Duration;
 use serde::Serialize;
 
 use crate::io::live::{record_loop, LiveError, LoopRecording, LoopRequest};
-
-use super::test_signal::{find_delay, mls};
+use crate::measure::{find_delay, maximum_length_sequence};
 
 /// MLS order of the test signal: 8191 samples, 0.17 s at 48 kHz.
 const MLS_ORDER: u32 = 13;
 /// Test level: −20 dBFS, gentle on real loudspeakers should a loop be acoustic.
 const LEVEL: f32 = 0.1;
-/// Below this clarity (correlation peak over the largest other value) the signal counts as
-/// not found.
-const MIN_CLARITY_DB: f64 = 6.0;
+
+/// One period of the test signal, ±1.
+pub fn test_signal() -> Vec<f32> {
+    maximum_length_sequence(MLS_ORDER)
+        .unwrap_or_default()
+        .into_iter()
+        .map(|v| v as f32)
+        .collect()
+}
 
 /// Where and how to measure.
 #[derive(Debug, Clone, PartialEq)]
@@ -39,7 +44,7 @@ pub struct RoundTrip {
     pub signal: String,
     /// Whether the test signal came back.
     pub found: bool,
-    /// Correlation peak over the largest other value, dB.
+    /// Correlation peak over the correlation's RMS, dB (the measure stage's prominence).
     pub clarity_db: Option<f64>,
     /// Output callback → input callback delivering the same frame, ms.
     pub round_trip_ms: Option<f64>,
@@ -56,7 +61,7 @@ pub struct RoundTrip {
 
 /// Plays the test signal, records, and analyses.
 pub fn measure_round_trip(options: &RoundTripOptions) -> Result<RoundTrip, LiveError> {
-    let signal = mls(MLS_ORDER);
+    let signal = test_signal();
     let request = LoopRequest {
         input: options.input_device.clone(),
         output: options.output_device.clone(),
@@ -106,24 +111,31 @@ pub fn analyse(recording: &LoopRecording, signal: &[f32], options: &RoundTripOpt
         .find(|(t, _, _)| *t >= sent_at)
         .map_or(recording.captured.len(), |(_, before, _)| *before);
     let max_lag = (options.max_round_trip.as_secs_f64() * rate) as usize;
-    let Some((lag, clarity)) = find_delay(
-        &recording.captured[first.min(recording.captured.len())..],
-        signal,
-        max_lag,
-    ) else {
-        out.note = "the recording after the signal was sent is too short or silent: is the \
-                    output looped back to the input?"
+    let start = first.min(recording.captured.len());
+    let end = (start + max_lag + signal.len()).min(recording.captured.len());
+    let recorded: Vec<f64> = recording.captured[start..end]
+        .iter()
+        .map(|&v| f64::from(v))
+        .collect();
+    let reference: Vec<f64> = signal.iter().map(|&v| f64::from(v)).collect();
+    if recorded.len() < reference.len() {
+        out.note = "the recording after the signal was sent is too short: is the output looped \
+                    back to the input?"
             .into();
         return out;
-    };
-    out.clarity_db = Some(clarity);
-    if clarity < MIN_CLARITY_DB {
-        out.note = format!(
-            "the test signal was not found clearly ({clarity:.1} dB over the next correlation \
-             peak): is the output looped back to the input?"
-        );
-        return out;
     }
+    let lag = match find_delay(&reference, &recorded, "the loop recording", 0) {
+        Ok(found) => {
+            out.clarity_db = Some(found.prominence_db);
+            found.peak_lag
+        }
+        Err(e) => {
+            out.note = format!(
+                "the test signal was not found ({e}): is the output looped back to the input?"
+            );
+            return out;
+        }
+    };
     let frame = first + lag;
     let Some(&(t, before, n)) = recording
         .input_callbacks
@@ -180,7 +192,7 @@ mod tests {
     // trip of 20.02 ms, of which 8 + 5 ms are the reported shares.
     #[test]
     fn round_trip_from_a_synthetic_loop() {
-        let signal = mls(MLS_ORDER);
+        let signal = test_signal();
         let frames = 96_000;
         let mut captured = vec![0.0f32; frames];
         let start = 48_960;

@@ -95,7 +95,9 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
             }
         }
     };
-    let document: SharedDocument = Arc::new(Mutex::new(Arc::new(String::from("{}"))));
+    // Until the first real document is published, clients are told to wait.
+    let starting = serde_json::json!({ "error": "the service is starting; ask again shortly" });
+    let document: SharedDocument = Arc::new(Mutex::new(Arc::new(starting.to_string())));
     let server = StatusServer::start(&options.socket, Arc::clone(&document))?;
     let audio = RunningAudio::start(&link, &plan, 1, &source)?;
     let mut service = Service {

@@ -180,11 +180,16 @@ pub fn render_status_text(doc: &Value) -> String {
         levels("output_peak_dbfs")
     ));
     if let Some(sim) = doc["simulated"].as_object() {
-        out.push_str(&format!(
-            "link error   {:.1} dB before correction, {:.1} dB after (running, 1 s window)\n",
-            sim.get("error_before_db").map_or(f64::NAN, f),
-            sim.get("error_after_db").map_or(f64::NAN, f)
-        ));
+        let before = sim.get("error_before_db").map_or(f64::NAN, f);
+        let after = sim.get("error_after_db").map_or(f64::NAN, f);
+        if before.is_finite() && after.is_finite() {
+            out.push_str(&format!(
+                "link error   {before:.1} dB before correction, {after:.1} dB after (running, \
+                 0.25 s window)\n"
+            ));
+        } else {
+            out.push_str("link error   not measured yet (settling)\n");
+        }
     }
     if let Some(paths) = doc["paths"].as_array() {
         for p in paths {

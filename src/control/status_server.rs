@@ -144,7 +144,21 @@ fn answer(mut stream: UnixStream, document: &SharedDocument) {
     };
     // A client that does not read gets cut off by the write timeout.
     let _ = stream.write_all(reply.as_bytes());
+    // Closing with unread input would reset the connection and could destroy the reply before
+    // the client reads it: say we are done, then discard what is left (bounded in size and time).
+    let _ = stream.shutdown(std::net::Shutdown::Write);
+    let mut sink = [0u8; 4096];
+    let mut drained = 0;
+    while drained < MAX_DRAIN_BYTES {
+        match stream.read(&mut sink) {
+            Ok(0) | Err(_) => break,
+            Ok(n) => drained += n,
+        }
+    }
 }
+
+/// Most unread request bytes discarded before a connection is closed.
+const MAX_DRAIN_BYTES: usize = 64 * 1024;
 
 /// Reads one request line of at most [`MAX_REQUEST_BYTES`].
 fn read_request(stream: &mut UnixStream) -> Result<String, String> {

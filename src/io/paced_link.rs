@@ -19,18 +19,34 @@ use crate::model::Link;
 const PROGRAMME_SECONDS: f64 = 8.0;
 
 /// Time constant of the running error measures (seconds).
-const ERROR_WINDOW_SECONDS: f64 = 1.0;
+const ERROR_WINDOW_SECONDS: f64 = 0.25;
+
+/// The error measures start after this long (seconds): the engine's start-up fade-in and the
+/// filters' first transient are not what the link does to programme.
+const SETTLE_SECONDS: f64 = 0.25;
 
 /// Running figures of a paced link, readable from any thread.
-#[derive(Debug, Default)]
+#[derive(Debug)]
 pub struct PacedFigures {
-    /// f64 bits: error of the link's output against the original, dB (running, ~1 s window).
+    /// f64 bits: error of the link's output against the original, dB (running, ~0.25 s window).
     error_before_db: AtomicU64,
     /// f64 bits: error of the equalized output against the original, dB.
     error_after_db: AtomicU64,
     pub frames: AtomicU64,
     /// Blocks that started later than their real-time deadline.
     pub late_blocks: AtomicU64,
+}
+
+impl Default for PacedFigures {
+    fn default() -> Self {
+        // NaN until the first measurement (after the settling time).
+        Self {
+            error_before_db: AtomicU64::new(f64::NAN.to_bits()),
+            error_after_db: AtomicU64::new(f64::NAN.to_bits()),
+            frames: AtomicU64::new(0),
+            late_blocks: AtomicU64::new(0),
+        }
+    }
 }
 
 impl PacedFigures {
@@ -180,6 +196,8 @@ impl Runner {
         let mut written: u64 = 0;
         let (mut err_before, mut err_after, mut reference) = (0.0f64, 0.0f64, 0.0f64);
         let mut position = 0usize;
+        let settle_frames =
+            (SETTLE_SECONDS / self.period.as_secs_f64()).ceil() as u64 * self.block_frames as u64;
         let mut deadline = Instant::now();
         while !self.stop.load(Ordering::Acquire) {
             for f in 0..self.block_frames {
@@ -216,6 +234,9 @@ impl Runner {
                 }
             }
             written += self.block_frames as u64;
+            if written <= settle_frames {
+                (be, ae, re) = (0.0, 0.0, 0.0);
+            }
             err_before = err_before * self.decay + be;
             err_after = err_after * self.decay + ae;
             reference = reference * self.decay + re;

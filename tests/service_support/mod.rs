@@ -1,0 +1,156 @@
+//! Helpers for the tests that run the real service (`redress run`) as a child process: start it,
+//! wait for its status socket, send it signals, read its status, stop it.
+
+#![allow(dead_code)] // each test file uses its own subset
+
+use std::path::{Path, PathBuf};
+use std::process::{Child, Command, ExitStatus, Stdio};
+use std::time::{Duration, Instant};
+
+use serde_json::Value;
+
+/// Longest wait for anything the service should do by itself (debug builds are slow to plan).
+pub const PATIENCE: Duration = Duration::from_secs(60);
+
+/// A stereo link whose inverse is a short IIR filter (quick to design in a debug build).
+pub const LINK_A: &str = r#"# Test link A: a short resonant line (invented).
+[link]
+sample_rate_hz = 48000
+channel_count = 2
+
+[[path]]
+label = "test line A"
+channels = [0, 1]
+difference_equation = { b = [1.0, -0.6, 0.25], a = [1.0, -0.3] }
+"#;
+
+/// Link A re-measured: slightly different coefficients, so the swap changes the output.
+pub const LINK_B: &str = r#"# Test link B: the same line, re-measured (invented).
+[link]
+sample_rate_hz = 48000
+channel_count = 2
+
+[[path]]
+label = "test line B"
+channels = [0, 1]
+difference_equation = { b = [1.0, -0.5, 0.2], a = [1.0, -0.25] }
+"#;
+
+/// A config that does not parse (the value of `b` is cut off).
+pub const BROKEN: &str = "[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n[[path]]\nchannels = [0, 1]\ndifference_equation = { b = [1.0, \n";
+
+pub struct Service {
+    pub child: Child,
+    pub socket: PathBuf,
+    pub log: PathBuf,
+}
+
+/// Starts `redress run CONFIG ARGS… --socket DIR/status.sock`, stderr to DIR/service.log.
+pub fn start(dir: &Path, config: &Path, args: &[&str], env: &[(&str, &Path)]) -> Service {
+    let socket = dir.join("run").join("status.sock");
+    let log = dir.join("service.log");
+    let mut command = Command::new(env!("CARGO_BIN_EXE_redress"));
+    command
+        .arg("run")
+        .arg(config)
+        .args(args)
+        .arg("--socket")
+        .arg(&socket)
+        .stdin(Stdio::null())
+        .stdout(Stdio::null())
+        .stderr(std::fs::File::create(&log).expect("log file"));
+    for (k, v) in env {
+        command.env(k, v);
+    }
+    let child = command.spawn().expect("redress run starts");
+    Service { child, socket, log }
+}
+
+impl Service {
+    /// Waits until the status socket answers; panics with the log if the service died first.
+    pub fn wait_ready(&mut self) -> Value {
+        self.wait_for("the status socket", |_| true)
+    }
+
+    /// Polls the status until `condition` holds.
+    pub fn wait_for(&mut self, what: &str, condition: impl Fn(&Value) -> bool) -> Value {
+        let started = Instant::now();
+        loop {
+            if let Some(status) = self.child.try_wait().expect("child state") {
+                panic!(
+                    "the service exited ({status}) while waiting for {what}:\n{}",
+                    self.log_text()
+                );
+            }
+            if let Some(doc) = self.status() {
+                if condition(&doc) {
+                    return doc;
+                }
+            }
+            assert!(
+                started.elapsed() < PATIENCE,
+                "gave up waiting for {what}:\n{}",
+                self.log_text()
+            );
+            std::thread::sleep(Duration::from_millis(50));
+        }
+    }
+
+    /// The status document, if the socket answers.
+    pub fn status(&self) -> Option<Value> {
+        redress::control::query_status(&self.socket).ok()
+    }
+
+    pub fn signal(&self, name: &str) {
+        let ok = Command::new("kill")
+            .arg(format!("-{name}"))
+            .arg(self.child.id().to_string())
+            .status()
+            .expect("kill runs")
+            .success();
+        assert!(ok, "kill -{name} failed");
+    }
+
+    /// Waits for the process to exit (panics after PATIENCE, killing it).
+    pub fn wait_exit(&mut self) -> ExitStatus {
+        let started = Instant::now();
+        loop {
+            if let Some(status) = self.child.try_wait().expect("child state") {
+                return status;
+            }
+            if started.elapsed() > PATIENCE {
+                let _ = self.child.kill();
+                panic!("the service did not exit:\n{}", self.log_text());
+            }
+            std::thread::sleep(Duration::from_millis(20));
+        }
+    }
+
+    pub fn log_text(&self) -> String {
+        std::fs::read_to_string(&self.log).unwrap_or_default()
+    }
+}
+
+impl Drop for Service {
+    fn drop(&mut self) {
+        // Never leave a service behind, whatever the test did.
+        if self.child.try_wait().ok().flatten().is_none() {
+            let _ = self.child.kill();
+            let _ = self.child.wait();
+        }
+    }
+}
+
+pub fn u(doc: &Value, pointer: &str) -> u64 {
+    doc.pointer(pointer)
+        .and_then(Value::as_u64)
+        .unwrap_or_else(|| panic!("{pointer} missing in {doc}"))
+}
+
+/// A fresh private temp directory.
+pub fn temp_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("redress-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    dir
+}
