@@ -77,6 +77,11 @@ impl SectionCascade {
         &mut self.state
     }
 
+    /// Coefficients and state at once, for the block kernels.
+    pub(crate) fn parts_mut(&mut self) -> (&[SectionCoefficients], &mut [[f64; 2]]) {
+        (&self.sections, &mut self.state)
+    }
+
     /// Sections as run, in running order (rounded to the run precision).
     pub fn sections(&self) -> &[SectionCoefficients] {
         &self.sections

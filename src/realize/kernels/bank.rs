@@ -4,12 +4,12 @@
 //!
 //! Built (and sized) on the control side; [`ChannelBank::process`] and the other methods
 //! allocate nothing. Every channel's output is its filter's own `process_sample` output
-//! (to the bit, or by rounding only where a channel runs alone through the fused wavefront).
+//! (to the bit, or by rounding only for sections on CPUs with FMA).
 
 use std::collections::BTreeMap;
 
 use super::super::Filter;
-use super::dispatch::{with_widest_vectors, Kernel};
+use super::dispatch::{detected_vector_unit, with_widest_vectors, Arithmetic, Kernel, VectorUnit};
 use super::lane_filter::{LaneFilter, LaneShape};
 use super::mono::process_inline;
 
@@ -52,6 +52,19 @@ pub struct ChannelBank {
 /// Groups of size `L` that are worth vector lanes: at least this many real channels.
 const MIN_LANES_USED: usize = 2;
 
+/// Whether channels of this shape run faster side by side in lanes than alone through their
+/// block kernel (measured with `scripts/bench/compare_scipy.sh` and `cargo bench`): a long
+/// cascade alone runs as a vectorised wavefront, which beats lanes whose per-frame chain of
+/// sections is too long for the processor to overlap frames; a long direct form vectorises
+/// over its own state. Lattices always gain from lanes.
+fn prefers_lanes(shape: LaneShape) -> bool {
+    match shape {
+        LaneShape::Sections(k) => k <= 4 || detected_vector_unit() == VectorUnit::Baseline,
+        LaneShape::DirectForm2T(order) => order <= 8,
+        LaneShape::LatticeLadder(_) => true,
+    }
+}
+
 impl ChannelBank {
     /// One filter per channel, in channel order.
     pub fn new(filters: Vec<Filter>) -> Self {
@@ -61,7 +74,14 @@ impl ChannelBank {
             by_shape.entry(LaneShape::of(f)).or_default().push(c);
         }
         let mut units = Vec::new();
-        for members in by_shape.values() {
+        for (shape, members) in &by_shape {
+            if !prefers_lanes(*shape) {
+                units.extend(members.iter().map(|&c| Unit::Alone {
+                    channel: c,
+                    filter: filters[c].clone(),
+                }));
+                continue;
+            }
             let mut rest: &[usize] = members;
             while !rest.is_empty() {
                 let take = if rest.len() >= 5 { 8 } else { 4 }.min(rest.len());
@@ -169,7 +189,7 @@ impl ChannelBank {
     }
 
     #[inline(always)]
-    fn process_inline(&mut self, input: &[f32], output: &mut [f64]) {
+    fn process_inline<A: Arithmetic>(&mut self, input: &[f32], output: &mut [f64]) {
         let channels = self.channels;
         if channels == 0 {
             return;
@@ -187,7 +207,7 @@ impl ChannelBank {
                         for (v, frame) in xin.iter_mut().zip(x.chunks_exact(channels)) {
                             *v = f64::from(frame[*channel]);
                         }
-                        process_inline(filter, xin, yout);
+                        process_inline::<A>(filter, xin, yout);
                         for (v, frame) in yout.iter().zip(y.chunks_exact_mut(channels)) {
                             frame[*channel] = *v;
                         }
@@ -196,7 +216,7 @@ impl ChannelBank {
                         channels: lanes_of,
                         used,
                         lanes,
-                    } => run_lanes(
+                    } => run_lanes::<A, 4>(
                         lanes,
                         lanes_of,
                         *used,
@@ -209,7 +229,7 @@ impl ChannelBank {
                         channels: lanes_of,
                         used,
                         lanes,
-                    } => run_lanes(
+                    } => run_lanes::<A, 8>(
                         lanes,
                         lanes_of,
                         *used,
@@ -258,14 +278,14 @@ struct BankBlock<'a> {
 impl Kernel for BankBlock<'_> {
     type Output = ();
     #[inline(always)]
-    fn run(self) {
-        self.bank.process_inline(self.input, self.output)
+    fn run<A: Arithmetic>(self) {
+        self.bank.process_inline::<A>(self.input, self.output)
     }
 }
 
 /// Gathers the group's channels into lane frames, filters them, scatters them back.
 #[inline(always)]
-fn run_lanes<const L: usize>(
+fn run_lanes<A: Arithmetic, const L: usize>(
     lanes: &mut LaneFilter<L>,
     lanes_of: &[usize; L],
     used: usize,
@@ -274,6 +294,24 @@ fn run_lanes<const L: usize>(
     x: &[f32],
     y: &mut [f64],
 ) {
+    // The usual case, every lane used by consecutive channels: whole-slice copies the compiler
+    // turns into a few vector loads and stores.
+    let start = lanes_of[0];
+    let consecutive = used == L
+        && start + L <= channels
+        && lanes_of.iter().enumerate().all(|(l, &c)| c == start + l);
+    if consecutive {
+        for (lane_frame, frame) in frames.iter_mut().zip(x.chunks_exact(channels)) {
+            for (d, s) in lane_frame.iter_mut().zip(&frame[start..start + L]) {
+                *d = f64::from(*s);
+            }
+        }
+        lanes.process::<A>(frames);
+        for (lane_frame, frame) in frames.iter().zip(y.chunks_exact_mut(channels)) {
+            frame[start..start + L].copy_from_slice(lane_frame);
+        }
+        return;
+    }
     for (lane_frame, frame) in frames.iter_mut().zip(x.chunks_exact(channels)) {
         for l in 0..L {
             lane_frame[l] = if l < used {
@@ -283,7 +321,7 @@ fn run_lanes<const L: usize>(
             };
         }
     }
-    lanes.process(frames);
+    lanes.process::<A>(frames);
     for (lane_frame, frame) in frames.iter().zip(y.chunks_exact_mut(channels)) {
         for l in 0..used.min(L) {
             frame[lanes_of[l]] = lane_frame[l];

@@ -78,10 +78,100 @@ fn detect() -> VectorUnit {
 /// A piece of work to compile once per vector unit. Implement `run` with `#[inline(always)]`
 /// (and make what it calls `#[inline(always)]` too), so that the whole body is compiled again
 /// inside each `#[target_feature]` wrapper; a closure would not do, since the compiler keeps
-/// one shared copy of it built for the baseline CPU.
+/// one shared copy of it built for the baseline CPU. `A` is the arithmetic to use: [`Plain`]
+/// on the baseline CPU, [`Fused`] where FMA is there.
 pub trait Kernel {
     type Output;
-    fn run(self) -> Self::Output;
+    fn run<A: Arithmetic>(self) -> Self::Output;
+}
+
+/// The multiply-adds of the filter updates, written once per rounding behaviour.
+///
+/// [`Plain`] is each `process_sample`'s own expression, operation for operation (bit-identical
+/// results). [`Fused`] computes the same quantities with fused multiply-adds, one rounding
+/// where the plain form has two: fewer instructions and a shorter chain of dependent ones, at
+/// the price of results that differ by rounding only. Fused is used only where the CPU has FMA
+/// (otherwise `f64::mul_add` would be a slow library call).
+pub trait Arithmetic {
+    /// One second-order section in direct form II transposed: returns (y, s0′, s1′) for input
+    /// `v` and state (s0, s1); `c` = [b0, b1, b2, a1, a2].
+    #[inline(always)]
+    fn section(c: [f64; 5], v: f64, s0: f64, s1: f64) -> (f64, f64, f64) {
+        let [b0, b1, b2, a1, a2] = c;
+        let y = Self::section_output(b0, v, s0);
+        (
+            y,
+            Self::section_s0(b1, v, a1, y, s1),
+            Self::section_s1(b2, v, a2, y),
+        )
+    }
+    /// The section's three steps one by one (lane kernels run each over all lanes in turn,
+    /// which the compiler turns into whole-register operations): y = b0·v + s0 …
+    fn section_output(b0: f64, v: f64, s0: f64) -> f64;
+    /// … s0′ = b1·v − a1·y + s1 …
+    fn section_s0(b1: f64, v: f64, a1: f64, y: f64, s1: f64) -> f64;
+    /// … s1′ = b2·v − a2·y.
+    fn section_s1(b2: f64, v: f64, a2: f64, y: f64) -> f64;
+    /// b·x − a·y + next (one direct-form state update).
+    fn state_update(b: f64, x: f64, a: f64, y: f64, next: f64) -> f64;
+    /// One lattice stage: f − k·g, then k·f′ + g and y + v·(k·f′ + g); returns (f′, g′, y′).
+    fn lattice_stage(k: f64, g_below: f64, f: f64, v: f64, y: f64) -> (f64, f64, f64);
+}
+
+/// The per-sample path's own arithmetic.
+pub struct Plain;
+
+/// Fused multiply-adds (only inside FMA-enabled code).
+pub struct Fused;
+
+impl Arithmetic for Plain {
+    #[inline(always)]
+    fn section_output(b0: f64, v: f64, s0: f64) -> f64 {
+        b0 * v + s0
+    }
+    #[inline(always)]
+    fn section_s0(b1: f64, v: f64, a1: f64, y: f64, s1: f64) -> f64 {
+        b1 * v - a1 * y + s1
+    }
+    #[inline(always)]
+    fn section_s1(b2: f64, v: f64, a2: f64, y: f64) -> f64 {
+        b2 * v - a2 * y
+    }
+    #[inline(always)]
+    fn state_update(b: f64, x: f64, a: f64, y: f64, next: f64) -> f64 {
+        b * x - a * y + next
+    }
+    #[inline(always)]
+    fn lattice_stage(k: f64, g_below: f64, f: f64, v: f64, y: f64) -> (f64, f64, f64) {
+        let f = f - k * g_below;
+        let g = k * f + g_below;
+        (f, g, y + v * g)
+    }
+}
+
+impl Arithmetic for Fused {
+    #[inline(always)]
+    fn section_output(b0: f64, v: f64, s0: f64) -> f64 {
+        b0.mul_add(v, s0)
+    }
+    #[inline(always)]
+    fn section_s0(b1: f64, v: f64, a1: f64, y: f64, s1: f64) -> f64 {
+        (-a1).mul_add(y, b1.mul_add(v, s1))
+    }
+    #[inline(always)]
+    fn section_s1(b2: f64, v: f64, a2: f64, y: f64) -> f64 {
+        (-a2).mul_add(y, b2 * v)
+    }
+    #[inline(always)]
+    fn state_update(b: f64, x: f64, a: f64, y: f64, next: f64) -> f64 {
+        (-a).mul_add(y, b.mul_add(x, next))
+    }
+    #[inline(always)]
+    fn lattice_stage(k: f64, g_below: f64, f: f64, v: f64, y: f64) -> (f64, f64, f64) {
+        let f = (-k).mul_add(g_below, f);
+        let g = k.mul_add(f, g_below);
+        (f, g, v.mul_add(g, y))
+    }
 }
 
 /// Flush-to-zero and denormals-are-zero on for as long as it lives; the previous control
@@ -128,11 +218,11 @@ pub fn with_widest_vectors<K: Kernel>(kernel: K) -> K::Output {
     {
         #[target_feature(enable = "avx512f,avx2,fma")]
         fn on_avx512<K: Kernel>(kernel: K) -> K::Output {
-            kernel.run()
+            kernel.run::<Fused>()
         }
         #[target_feature(enable = "avx2,fma")]
         fn on_avx2<K: Kernel>(kernel: K) -> K::Output {
-            kernel.run()
+            kernel.run::<Fused>()
         }
         match detected_vector_unit() {
             // SAFETY: `detect` saw avx512f, avx2 and fma on this CPU.
@@ -142,5 +232,5 @@ pub fn with_widest_vectors<K: Kernel>(kernel: K) -> K::Output {
             VectorUnit::Baseline => {}
         }
     }
-    kernel.run()
+    kernel.run::<Plain>()
 }

@@ -1,6 +1,7 @@
 //! One group of channels run side by side in vector lanes, whichever structure they share.
 
 use super::super::Filter;
+use super::dispatch::Arithmetic;
 use super::lane_direct_form::LaneDirectForm;
 use super::lane_lattice::LaneLattice;
 use super::lane_sections::LaneSections;
@@ -69,10 +70,10 @@ impl<const L: usize> LaneFilter<L> {
     }
 
     #[inline(always)]
-    pub fn process(&mut self, frames: &mut [[f64; L]]) {
+    pub fn process<A: Arithmetic>(&mut self, frames: &mut [[f64; L]]) {
         match self {
             LaneFilter::DirectForm2T(f) => f.process(frames),
-            LaneFilter::Sections(f) => f.process(frames),
+            LaneFilter::Sections(f) => f.process::<A>(frames),
             LaneFilter::LatticeLadder(f) => f.process(frames),
         }
     }

@@ -3,6 +3,7 @@
 //! [`LatticeLadder::process_sample`] in the same order (bit-identical output).
 
 use super::super::LatticeLadder;
+use super::dispatch::{Arithmetic, Plain};
 
 #[derive(Debug, Clone)]
 pub struct LaneLattice<const L: usize> {
@@ -42,6 +43,8 @@ impl<const L: usize> LaneLattice<L> {
 
     /// Filters each frame (one sample per lane) in place.
     #[inline(always)]
+    /// Always the plain arithmetic: fusing changes the rounding, and a high-order direct form
+    /// or a lattice with |k| near 1 amplifies that past the 1e-12 the fast paths promise.
     pub fn process(&mut self, frames: &mut [[f64; L]]) {
         let order = self.k.len();
         let v0 = self.v[0];
@@ -55,9 +58,8 @@ impl<const L: usize> LaneLattice<L> {
                 let g_below = g[m];
                 let mut gm = [0.0; L];
                 for l in 0..L {
-                    f[l] -= k[m][l] * g_below[l];
-                    gm[l] = k[m][l] * f[l] + g_below[l];
-                    y[l] += v[m][l] * gm[l];
+                    (f[l], gm[l], y[l]) =
+                        Plain::lattice_stage(k[m][l], g_below[l], f[l], v[m][l], y[l]);
                 }
                 g[m + 1] = gm;
             }

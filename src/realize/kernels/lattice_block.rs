@@ -6,9 +6,12 @@
 //! branches. The operations and their order are those of [`LatticeLadder::process_sample`].
 
 use super::super::LatticeLadder;
+use super::dispatch::{Arithmetic, Plain};
 
 /// Runs `input` through `filter` into `output` (the shorter length counts), carrying state.
 #[inline(always)]
+/// Always the plain arithmetic: fusing changes the rounding, and a high-order direct form
+/// or a lattice with |k| near 1 amplifies that past the 1e-12 the fast paths promise.
 pub fn process(filter: &mut LatticeLadder, input: &[f64], output: &mut [f64]) {
     let (k, v, g) = filter.parts_mut();
     let order = k.len();
@@ -20,11 +23,8 @@ pub fn process(filter: &mut LatticeLadder, input: &[f64], output: &mut [f64]) {
         let mut f = *x;
         let mut y = 0.0;
         for m in (0..order).rev() {
-            let km = k[m];
-            let g_below = g[m];
-            f -= km * g_below;
-            let gm = km * f + g_below;
-            y += v[m] * gm;
+            let (f_next, gm, y_next) = Plain::lattice_stage(k[m], g[m], f, v[m], y);
+            (f, y) = (f_next, y_next);
             g[m + 1] = gm;
         }
         g[0] = f;

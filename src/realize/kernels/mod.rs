@@ -9,9 +9,9 @@
 //! - [`dispatch`]: compiles them for AVX2 / AVX-512 as well and picks at run time.
 //!
 //! Every path performs each filter's own operations in its own order, so the results are the
-//! same to the bit as the per-sample path, except the sections wavefront on AVX2/AVX-512, which
-//! fuses multiply-adds (one rounding instead of two) to halve its critical path; the equality
-//! tests bound every path at 1e-12 of the output's peak.
+//! same to the bit as the per-sample path, except second-order sections on CPUs with FMA
+//! (AVX2/AVX-512), which fuse multiply-adds (one rounding instead of two) to halve the
+//! recurrence's critical path; the equality tests bound every path at 1e-12 of the peak.
 
 mod bank;
 mod direct_form_block;

@@ -1,7 +1,7 @@
 //! The block path of one [`Filter`]: f64 in, f64 out, the fastest kernel for its structure.
 
 use super::super::Filter;
-use super::dispatch::{with_widest_vectors, Kernel};
+use super::dispatch::{with_widest_vectors, Arithmetic, Kernel};
 use super::{direct_form_block, lattice_block, sections_wavefront};
 
 /// Runs `input` through `filter` into `output` (the shorter length counts), carrying state;
@@ -23,16 +23,20 @@ struct MonoBlock<'a> {
 impl Kernel for MonoBlock<'_> {
     type Output = ();
     #[inline(always)]
-    fn run(self) {
-        process_inline(self.filter, self.input, self.output)
+    fn run<A: Arithmetic>(self) {
+        process_inline::<A>(self.filter, self.input, self.output)
     }
 }
 
 #[inline(always)]
-pub(super) fn process_inline(filter: &mut Filter, input: &[f64], output: &mut [f64]) {
+pub(super) fn process_inline<A: Arithmetic>(
+    filter: &mut Filter,
+    input: &[f64],
+    output: &mut [f64],
+) {
     match filter {
         Filter::DirectForm2T(f) => direct_form_block::process(f, input, output),
-        Filter::Sections(f) => sections_wavefront::process(f, input, output),
+        Filter::Sections(f) => sections_wavefront::process::<A>(f, input, output),
         Filter::LatticeLadder(f) => lattice_block::process(f, input, output),
     }
 }

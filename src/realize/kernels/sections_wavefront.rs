@@ -13,13 +13,14 @@
 //! [`super::simd_wavefront`] fuses multiply-adds and differs by rounding only).
 
 use super::super::SectionCascade;
+use super::dispatch::Arithmetic;
 
 /// Largest number of sections the wavefront runs; longer cascades go sample by sample.
 pub const MAX_WAVEFRONT_SECTIONS: usize = 32;
 
 /// Runs `input` through `cascade` into `output` (the shorter length counts), carrying state.
 #[inline(always)]
-pub fn process(cascade: &mut SectionCascade, input: &[f64], output: &mut [f64]) {
+pub fn process<A: Arithmetic>(cascade: &mut SectionCascade, input: &[f64], output: &mut [f64]) {
     let n = input.len().min(output.len());
     let (input, output) = (&input[..n], &mut output[..n]);
     #[cfg(target_arch = "x86_64")]
@@ -33,12 +34,14 @@ pub fn process(cascade: &mut SectionCascade, input: &[f64], output: &mut [f64]) 
                 *y = gain * x;
             }
         }
-        1 => sample_by_sample(cascade, input, output),
-        2..=4 => wavefront::<4>(cascade, input, output),
-        5..=8 => wavefront::<8>(cascade, input, output),
-        9..=16 => wavefront::<16>(cascade, input, output),
-        17..=MAX_WAVEFRONT_SECTIONS => wavefront::<MAX_WAVEFRONT_SECTIONS>(cascade, input, output),
-        _ => sample_by_sample(cascade, input, output),
+        1 => sample_by_sample::<A>(cascade, input, output),
+        2..=4 => wavefront::<A, 4>(cascade, input, output),
+        5..=8 => wavefront::<A, 8>(cascade, input, output),
+        9..=16 => wavefront::<A, 16>(cascade, input, output),
+        17..=MAX_WAVEFRONT_SECTIONS => {
+            wavefront::<A, MAX_WAVEFRONT_SECTIONS>(cascade, input, output)
+        }
+        _ => sample_by_sample::<A>(cascade, input, output),
     }
 }
 
@@ -72,9 +75,21 @@ fn vector_wavefront(cascade: &mut SectionCascade, input: &[f64], output: &mut [f
 
 /// The plain order: every section on one sample, then the next sample.
 #[inline(always)]
-fn sample_by_sample(cascade: &mut SectionCascade, input: &[f64], output: &mut [f64]) {
+fn sample_by_sample<A: Arithmetic>(
+    cascade: &mut SectionCascade,
+    input: &[f64],
+    output: &mut [f64],
+) {
+    let gain = cascade.gain();
+    let (sections, state) = cascade.parts_mut();
     for (x, y) in input.iter().zip(output.iter_mut()) {
-        *y = cascade.process_sample(*x);
+        let mut v = gain * x;
+        for (c, s) in sections.iter().zip(state.iter_mut()) {
+            let (out, s0, s1) = A::section([c[0], c[1], c[2], c[4], c[5]], v, s[0], s[1]);
+            *s = [s0, s1];
+            v = out;
+        }
+        *y = v;
     }
 }
 
@@ -127,14 +142,18 @@ impl<const W: usize> Lanes<W> {
         }
     }
 
+    #[inline(always)]
+    fn coefficients(&self, k: usize) -> [f64; 5] {
+        [self.b0[k], self.b1[k], self.b2[k], self.a1[k], self.a2[k]]
+    }
+
     /// One step with every lane active: each section takes `v[k]` in and leaves its output
     /// in `y[k]`.
     #[inline(always)]
-    fn step(&mut self, v: &[f64; W], y: &mut [f64; W]) {
+    fn step<A: Arithmetic>(&mut self, v: &[f64; W], y: &mut [f64; W]) {
         for k in 0..W {
-            let out = self.b0[k] * v[k] + self.s0[k];
-            self.s0[k] = self.b1[k] * v[k] - self.a1[k] * out + self.s1[k];
-            self.s1[k] = self.b2[k] * v[k] - self.a2[k] * out;
+            let (out, s0, s1) = A::section(self.coefficients(k), v[k], self.s0[k], self.s1[k]);
+            (self.s0[k], self.s1[k]) = (s0, s1);
             y[k] = out;
         }
     }
@@ -142,11 +161,15 @@ impl<const W: usize> Lanes<W> {
     /// One step where only lanes `first..=last` hold a sample of this block; the others keep
     /// their state (a select, not arithmetic, so nothing of theirs leaks in).
     #[inline(always)]
-    fn step_masked(&mut self, v: &[f64; W], y: &mut [f64; W], first: usize, last: usize) {
+    fn step_masked<A: Arithmetic>(
+        &mut self,
+        v: &[f64; W],
+        y: &mut [f64; W],
+        first: usize,
+        last: usize,
+    ) {
         for k in 0..W {
-            let out = self.b0[k] * v[k] + self.s0[k];
-            let s0 = self.b1[k] * v[k] - self.a1[k] * out + self.s1[k];
-            let s1 = self.b2[k] * v[k] - self.a2[k] * out;
+            let (out, s0, s1) = A::section(self.coefficients(k), v[k], self.s0[k], self.s1[k]);
             let active = k >= first && k <= last;
             self.s0[k] = if active { s0 } else { self.s0[k] };
             self.s1[k] = if active { s1 } else { self.s1[k] };
@@ -166,7 +189,11 @@ fn shift_in<const W: usize>(first: f64, y: &[f64; W]) -> [f64; W] {
 }
 
 #[inline(always)]
-fn wavefront<const W: usize>(cascade: &mut SectionCascade, input: &[f64], output: &mut [f64]) {
+fn wavefront<A: Arithmetic, const W: usize>(
+    cascade: &mut SectionCascade,
+    input: &[f64],
+    output: &mut [f64],
+) {
     let sections = cascade.section_count();
     let n = input.len();
     if n == 0 {
@@ -186,7 +213,7 @@ fn wavefront<const W: usize>(cascade: &mut SectionCascade, input: &[f64], output
     while t < full_from {
         let v = shift_in(lane_input(t), &y);
         let first = (t + 1).saturating_sub(n);
-        lanes.step_masked(&v, &mut y, first, t.min(last));
+        lanes.step_masked::<A>(&v, &mut y, first, t.min(last));
         if t >= last {
             output[t - last] = y[last];
         }
@@ -199,7 +226,7 @@ fn wavefront<const W: usize>(cascade: &mut SectionCascade, input: &[f64], output
         let out = &mut out[full_from - last..];
         for (x, o) in body.iter().zip(out.iter_mut()) {
             let v = shift_in(gain * x, &y);
-            lanes.step(&v, &mut y);
+            lanes.step::<A>(&v, &mut y);
             *o = y[last];
         }
         t = full_to;
@@ -208,7 +235,7 @@ fn wavefront<const W: usize>(cascade: &mut SectionCascade, input: &[f64], output
     while t < steps {
         let v = shift_in(lane_input(t), &y);
         let first = (t + 1).saturating_sub(n);
-        lanes.step_masked(&v, &mut y, first, t.min(last));
+        lanes.step_masked::<A>(&v, &mut y, first, t.min(last));
         if t >= last {
             output[t - last] = y[last];
         }
