@@ -7,6 +7,7 @@
 //! `numeric` holds the polynomial and frequency-response arithmetic they share.
 
 pub mod analysis;
+pub mod bench;
 pub mod control;
 pub mod design;
 pub mod engine;

@@ -151,6 +151,33 @@ enum Command {
     },
     /// List the audio devices and the configurations they support.
     Devices,
+    /// Time the configured filters in the real engine (callback time against the block's
+    /// deadline) and report the delay each channel's design adds; with --round-trip, also
+    /// measure the device path with its output looped back to its input.
+    #[command(after_help = EXIT_CODES)]
+    Bench {
+        config: PathBuf,
+        /// Print every figure as JSON.
+        #[arg(long)]
+        json: bool,
+        /// Callbacks to time.
+        #[arg(long, default_value_t = redress::bench::DEFAULT_BENCH_BLOCKS as u32,
+              value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+        blocks: u32,
+        /// Frames per callback (default: the config's [audio] buffer_frames, else 256).
+        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=65_536))]
+        block_frames: Option<u32>,
+        /// Also play a test signal on the output device and find it on the input device (the
+        /// output must be looped back to the input).
+        #[arg(long)]
+        round_trip: bool,
+        /// With --round-trip: capture device (default: the config's input_device).
+        #[arg(long, requires = "round_trip", value_name = "DEVICE")]
+        input_device: Option<String>,
+        /// With --round-trip: playback device (default: the config's output_device).
+        #[arg(long, requires = "round_trip", value_name = "DEVICE")]
+        output_device: Option<String>,
+    },
     #[command(flatten)]
     Measure(measure_commands::MeasureCommand),
 }
@@ -213,6 +240,21 @@ fn main() -> ExitCode {
         ),
         Command::Status { json, socket } => status(json, socket),
         Command::Devices => devices(),
+        Command::Bench {
+            config,
+            json,
+            blocks,
+            block_frames,
+            round_trip,
+            input_device,
+            output_device,
+        } => bench(
+            &config,
+            json,
+            blocks as usize,
+            block_frames.map(|b| b as usize),
+            round_trip.then_some((input_device, output_device)),
+        ),
         Command::Measure(command) => measure_commands::run(command),
     };
     ExitCode::from(code)
@@ -444,6 +486,59 @@ fn devices() -> u8 {
         Err(e) => {
             eprintln!("error: {e}");
             exit::FAILED
+        }
+    }
+}
+
+fn bench(
+    config: &Path,
+    json: bool,
+    blocks: usize,
+    block_frames: Option<usize>,
+    round_trip: Option<(Option<String>, Option<String>)>,
+) -> u8 {
+    use redress::bench::{bench_link, render_text as render_bench, BenchOptions, RoundTripOptions};
+    let link = match load(config) {
+        Ok(link) => link,
+        Err(code) => return code,
+    };
+    let plan = plan_link(&link);
+    let audio = &link.runtime.audio;
+    let round_trip = round_trip.map(|(input, output)| RoundTripOptions {
+        input_device: input.unwrap_or_else(|| audio.input_device.clone()),
+        output_device: output.unwrap_or_else(|| audio.output_device.clone()),
+        sample_rate: link.sample_rate.round() as u32,
+        channels: link.channel_count as u16,
+        buffer_frames: block_frames.map(|b| b as u32).or(audio.buffer_frames),
+        settle: std::time::Duration::from_millis(1500),
+        max_round_trip: std::time::Duration::from_secs(1),
+    });
+    let asked_round_trip = round_trip.is_some();
+    let options = BenchOptions {
+        blocks,
+        block_frames,
+        round_trip,
+    };
+    match bench_link(&link, &plan, &options) {
+        Ok(report) => {
+            if json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&report).unwrap_or_default()
+                );
+            } else {
+                print!("{}", render_bench(&report));
+            }
+            let found = report.round_trip.as_ref().is_some_and(|r| r.found);
+            if asked_round_trip && !found {
+                exit::FAILED
+            } else {
+                exit::OK
+            }
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            exit::NOT_RUNNABLE
         }
     }
 }

@@ -1,6 +1,7 @@
 use crate::design::InverseDesign;
 use crate::numeric::impulse::decayed_impulse_response;
 use crate::pipeline::LinkPlan;
+use crate::realize::kernels::ChannelBank;
 use crate::realize::Filter;
 
 /// One running inverse filter per audio channel, plus what the guards need to know about each.
@@ -9,7 +10,9 @@ use crate::realize::Filter;
 /// handed back.
 #[derive(Debug, Clone)]
 pub struct Equalizer {
-    filters: Vec<Filter>,
+    /// The channels' filters, arranged for block processing (vector lanes where they fit);
+    /// boxed so an `Equalizer` stays small when it is moved through the queues.
+    bank: Box<ChannelBank>,
     /// Per channel: Σ|g[n]| of the inverse's impulse response — the exact bound on |y|/max|x|
     /// (common practice: ‖g∗x‖∞ ≤ ‖g‖₁·‖x‖∞). It is at least the peak gain over frequency.
     output_bound: Vec<f64>,
@@ -74,7 +77,7 @@ impl Equalizer {
             envelope_release.push(release_for(design));
         }
         Ok(Self {
-            filters,
+            bank: Box::new(ChannelBank::new(filters)),
             output_bound,
             envelope_release,
             generation,
@@ -86,7 +89,7 @@ impl Equalizer {
     pub fn from_filters(filters: Vec<Filter>, output_bound: f64, generation: u64) -> Self {
         let n = filters.len();
         Self {
-            filters,
+            bank: Box::new(ChannelBank::new(filters)),
             output_bound: vec![output_bound; n],
             envelope_release: vec![DEFAULT_RELEASE; n],
             generation,
@@ -94,7 +97,12 @@ impl Equalizer {
     }
 
     pub fn channel_count(&self) -> usize {
-        self.filters.len()
+        self.bank.channel_count()
+    }
+
+    /// How many channels run side by side in vector lanes (the rest run alone).
+    pub fn channels_in_lanes(&self) -> usize {
+        self.bank.channels_in_lanes()
     }
 
     pub fn generation(&self) -> u64 {
@@ -117,39 +125,29 @@ impl Equalizer {
     /// Runs one sample of channel `channel` (no bounds panic: an absent channel passes through).
     #[inline]
     pub fn process_channel_sample(&mut self, channel: usize, x: f64) -> f64 {
-        match self.filters.get_mut(channel) {
-            Some(f) => f.process_sample(x),
-            None => x,
-        }
+        self.bank.process_channel_sample(channel, x)
+    }
+
+    /// Filters interleaved f32 frames into interleaved f64 frames through the block kernels
+    /// (whole frames of the shorter slice), carrying state: the output of
+    /// [`Equalizer::process_channel_sample`] on every sample, computed faster.
+    pub fn process_frames(&mut self, input: &[f32], output: &mut [f64]) {
+        self.bank.process(input, output);
     }
 
     /// Filters interleaved frames: `input.len()` must equal `output.len()` and be a multiple of
     /// the channel count (a trailing partial frame is left untouched in `output`). State carries
     /// over between calls, so a signal cut into blocks anywhere gives the same result.
     pub fn process_interleaved(&mut self, input: &[f32], output: &mut [f32]) {
-        let channels = self.filters.len();
-        if channels == 0 {
+        if self.bank.channel_count() == 0 {
             return;
         }
-        for (frame_in, frame_out) in input
-            .chunks_exact(channels)
-            .zip(output.chunks_exact_mut(channels))
-        {
-            for ((x, y), filter) in frame_in
-                .iter()
-                .zip(frame_out.iter_mut())
-                .zip(self.filters.iter_mut())
-            {
-                *y = filter.process_sample(f64::from(*x)) as f32;
-            }
-        }
+        self.bank.process_f32(input, output);
     }
 
     /// Clears every filter's state (silence in the past).
     pub fn reset(&mut self) {
-        for f in &mut self.filters {
-            f.reset();
-        }
+        self.bank.reset();
     }
 }
 

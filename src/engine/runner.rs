@@ -19,6 +19,9 @@ const IMMEDIATE_FACTOR: f64 = 1000.0;
 /// Filter sets that could not be handed back yet (the return queue was full).
 const PENDING_SLOTS: usize = 4;
 
+/// Frames the filters run ahead of the guards at a time (one chunk of a callback's block).
+pub const ENGINE_CHUNK_FRAMES: usize = 256;
+
 /// Runs on the audio thread. Build it with [`super::engine_pair`].
 pub struct Engine {
     settings: EngineSettings,
@@ -39,6 +42,18 @@ pub struct Engine {
     clip: ClipGuard,
     /// Output of the incoming set during a crossfade, one frame.
     incoming_frame: Vec<f64>,
+    /// Filter outputs of the current chunk, interleaved, computed by the block kernels ahead
+    /// of the per-frame guards. A set's outputs are computed from the frame where it is first
+    /// needed to the end of the chunk; `*_ready` says they are there. They stay valid while the
+    /// set keeps running (a set whose state is reset or that leaves is recomputed or dropped),
+    /// so the guards see exactly what the per-sample path would give.
+    current_out: Vec<f64>,
+    incoming_out: Vec<f64>,
+    current_ready: bool,
+    incoming_ready: bool,
+    /// Peak |x| and |y| per channel over the callback, sent to the meters once per callback.
+    peak_in: Vec<f32>,
+    peak_out: Vec<f32>,
     pending_return: [Option<Box<Equalizer>>; PENDING_SLOTS],
     ends: EngineEnds,
 }
@@ -57,6 +72,12 @@ impl Engine {
             clip: ClipGuard::new(settings.clip, settings.gain_release_samples),
             envelope: vec![0.0; settings.channels],
             incoming_frame: vec![0.0; settings.channels],
+            current_out: vec![0.0; settings.channels * ENGINE_CHUNK_FRAMES],
+            incoming_out: vec![0.0; settings.channels * ENGINE_CHUNK_FRAMES],
+            current_ready: false,
+            incoming_ready: false,
+            peak_in: vec![0.0; settings.channels],
+            peak_out: vec![0.0; settings.channels],
             settings,
             current: initial,
             previous: None,
@@ -90,14 +111,31 @@ impl Engine {
         {
             self.fade_out_left = Some(self.settings.fade_out_samples);
         }
-        for (frame_in, frame_out) in input[..used]
-            .chunks_exact(channels)
-            .zip(output[..used].chunks_exact_mut(channels))
-        {
-            if self.incoming.is_none() {
-                self.accept_incoming();
+        self.peak_in.fill(0.0);
+        self.peak_out.fill(0.0);
+        let mut start = 0;
+        while start < frames {
+            let n = (frames - start).min(ENGINE_CHUNK_FRAMES);
+            let chunk_in = &input[start * channels..(start + n) * channels];
+            let chunk_out = &mut output[start * channels..(start + n) * channels];
+            self.current_ready = false;
+            self.incoming_ready = false;
+            for (f, (frame_in, frame_out)) in chunk_in
+                .chunks_exact(channels)
+                .zip(chunk_out.chunks_exact_mut(channels))
+                .enumerate()
+            {
+                if self.incoming.is_none() {
+                    self.accept_incoming();
+                }
+                self.run_filters_ahead(chunk_in, f);
+                self.process_frame(f * channels, frame_in, frame_out);
             }
-            self.process_frame(frame_in, frame_out);
+            start += n;
+        }
+        let stats = &self.ends.stats;
+        for c in 0..self.settings.channels {
+            stats.record_peak(c, self.peak_in[c], self.peak_out[c]);
         }
         let stats = &self.ends.stats;
         stats.frames.fetch_add(frames as u64, Ordering::Relaxed);
@@ -105,7 +143,35 @@ impl Engine {
         stats.record_callback_time(started.elapsed().as_nanos() as u64);
     }
 
-    fn process_frame(&mut self, frame_in: &[f32], frame_out: &mut [f32]) {
+    /// Runs the current and incoming sets through the block kernels from frame `f` to the end
+    /// of the chunk, unless their outputs for this chunk are already there.
+    fn run_filters_ahead(&mut self, chunk_in: &[f32], f: usize) {
+        let channels = self.settings.channels;
+        let from = f * channels;
+        let len = chunk_in.len();
+        if !self.current_ready {
+            if let Some(eq) = self.current.as_mut() {
+                eq.process_frames(&chunk_in[from..], &mut self.current_out[from..len]);
+            }
+            self.current_ready = true;
+        }
+        if !self.incoming_ready {
+            if let Some(eq) = self.incoming.as_mut() {
+                eq.process_frames(&chunk_in[from..], &mut self.incoming_out[from..len]);
+            }
+            self.incoming_ready = true;
+        }
+    }
+
+    /// The incoming set becomes the current one, its computed outputs with it.
+    fn promote_incoming_outputs(&mut self) {
+        std::mem::swap(&mut self.current_out, &mut self.incoming_out);
+        self.current_ready = self.incoming_ready;
+        self.incoming_ready = false;
+    }
+
+    /// `at`: index of this frame's first sample in the chunk's output buffers.
+    fn process_frame(&mut self, at: usize, frame_in: &[f32], frame_out: &mut [f32]) {
         let margin = self.settings.instability_margin;
         let mut trip: Option<(usize, bool)> = None;
         let mut incoming_trip: Option<usize> = None;
@@ -127,9 +193,9 @@ impl Engine {
             self.envelope[c] = env;
             let reference = env.max(ENVELOPE_FLOOR);
 
-            let y_current = match self.current.as_mut() {
+            let y_current = match self.current.as_ref() {
                 Some(eq) => {
-                    let v = eq.process_channel_sample(c, x);
+                    let v = self.current_out[at + c];
                     let limit = eq.output_bound(c) * reference * margin;
                     if !v.is_finite() {
                         trip.get_or_insert((c, true));
@@ -142,9 +208,9 @@ impl Engine {
                 }
                 None => x,
             };
-            let mixed = match self.incoming.as_mut() {
+            let mixed = match self.incoming.as_ref() {
                 Some(eq) => {
-                    let v = eq.process_channel_sample(c, x);
+                    let v = self.incoming_out[at + c];
                     let limit = eq.output_bound(c) * reference * margin;
                     if !v.is_finite() || v.abs() > limit * IMMEDIATE_FACTOR {
                         incoming_trip.get_or_insert(c);
@@ -212,7 +278,10 @@ impl Engine {
                 .fetch_add(u64::from(counted.limited), Ordering::Relaxed);
         }
         for (c, (x, y)) in frame_in.iter().zip(frame_out.iter()).enumerate() {
-            stats.record_peak(c, *x, *y);
+            if let (Some(pi), Some(po)) = (self.peak_in.get_mut(c), self.peak_out.get_mut(c)) {
+                *pi = pi.max(x.abs());
+                *po = po.max(y.abs());
+            }
         }
     }
 
@@ -260,6 +329,7 @@ impl Engine {
             next.reset();
             let generation = next.generation();
             self.incoming = Some(next);
+            self.incoming_ready = false;
             self.crossfade_pos = 0;
             self.incoming_over = 0;
             self.ends
@@ -275,6 +345,7 @@ impl Engine {
             return;
         };
         let generation = next.generation();
+        self.promote_incoming_outputs();
         if let Some(mut old) = self.current.replace(next) {
             old.reset();
             if let Some(older) = self.previous.replace(old) {
@@ -291,6 +362,7 @@ impl Engine {
     }
 
     fn abort_incoming(&mut self) {
+        self.incoming_ready = false;
         if let Some(bad) = self.incoming.take() {
             let generation = bad.generation();
             self.hand_back(bad);
@@ -313,9 +385,11 @@ impl Engine {
         let tripped = self.current.take();
         let tripped_generation = tripped.as_ref().map_or(0, |e| e.generation());
         let mut fallback_used = Fallback::Bypass;
+        self.current_ready = false;
         if let Some(next) = self.incoming.take() {
             // A newer set was already on its way in: go straight to it.
             self.current = Some(next);
+            self.promote_incoming_outputs();
             fallback_used = Fallback::LastGood;
         } else if self.settings.fallback == Fallback::LastGood {
             if let Some(mut last) = self.previous.take() {

@@ -108,7 +108,7 @@ fn channel_material(rate: f64, frames: usize, random: &mut SplitMix64) -> Vec<f6
     let mut sign = 1.0;
     let mut level = 0.0;
     for (n, y) in out.iter_mut().enumerate() {
-        if n >= click_offset && (n - click_offset) % click_spacing == 0 {
+        if n >= click_offset && (n - click_offset).is_multiple_of(click_spacing) {
             level = sign * 0.8;
             sign = -sign;
         }

@@ -254,7 +254,7 @@ impl WavBlockWriter {
     /// Appends whole frames (interleaved).
     pub fn write_block(&mut self, block: &[f32]) -> Result<(), IoError> {
         let channels = self.format.channels;
-        if block.len() % channels != 0 {
+        if !block.len().is_multiple_of(channels) {
             return Err(IoError::PartialFrame {
                 file: self.file.clone(),
                 samples: block.len(),

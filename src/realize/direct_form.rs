@@ -53,6 +53,16 @@ impl DirectForm2T {
     pub fn a(&self) -> &[f64] {
         &self.a
     }
+
+    /// State as it stands, s₁ … s_N.
+    pub(crate) fn state(&self) -> &[f64] {
+        &self.state
+    }
+
+    /// Coefficients and state at once, for the block kernel.
+    pub(crate) fn parts_mut(&mut self) -> (&[f64], &[f64], &mut [f64]) {
+        (&self.b, &self.a, &mut self.state)
+    }
 }
 
 #[cfg(test)]

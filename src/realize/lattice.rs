@@ -66,6 +66,16 @@ impl LatticeLadder {
     pub fn ladder(&self) -> &[f64] {
         &self.v
     }
+
+    /// State as it stands, g₀ … g_M of the previous sample.
+    pub(crate) fn state(&self) -> &[f64] {
+        &self.g
+    }
+
+    /// Coefficients and state at once, for the block kernel.
+    pub(crate) fn parts_mut(&mut self) -> (&[f64], &[f64], &mut [f64]) {
+        (&self.k, &self.v, &mut self.g)
+    }
 }
 
 /// Reflection coefficients of the denominator `a` (a[0] = 1), or the stage where |k| ≥ 1.

@@ -14,6 +14,7 @@ mod coefficients;
 mod deflation;
 mod direct_form;
 mod error;
+pub mod kernels;
 mod lattice;
 mod normalise;
 mod pairing;
@@ -73,18 +74,28 @@ impl Filter {
 
     /// Filters `input` into `output` (f32 samples, f64 arithmetic and state), carrying state
     /// from call to call. Processes `min(input.len(), output.len())` samples; the rest of a
-    /// longer `output` is left as it was.
+    /// longer `output` is left as it was. Runs the block kernel ([`kernels`]): the same
+    /// output as `process_sample` on each sample.
     pub fn process_block(&mut self, input: &[f32], output: &mut [f32]) {
-        fn run(step: &mut impl FnMut(f64) -> f64, input: &[f32], output: &mut [f32]) {
-            for (x, y) in input.iter().zip(output.iter_mut()) {
-                *y = step(f64::from(*x)) as f32;
+        const CHUNK: usize = 256;
+        let mut x = [0.0f64; CHUNK];
+        let mut y = [0.0f64; CHUNK];
+        for (xs, ys) in input.chunks(CHUNK).zip(output.chunks_mut(CHUNK)) {
+            let n = xs.len().min(ys.len());
+            for (d, s) in x.iter_mut().zip(&xs[..n]) {
+                *d = f64::from(*s);
+            }
+            kernels::process_block_f64(self, &x[..n], &mut y[..n]);
+            for (d, s) in ys[..n].iter_mut().zip(&y[..n]) {
+                *d = *s as f32;
             }
         }
-        match self {
-            Filter::DirectForm2T(f) => run(&mut |x| f.process_sample(x), input, output),
-            Filter::Sections(f) => run(&mut |x| f.process_sample(x), input, output),
-            Filter::LatticeLadder(f) => run(&mut |x| f.process_sample(x), input, output),
-        }
+    }
+
+    /// Filters `input` into `output` in f64, a block at a time, through the fastest kernel for
+    /// the structure (see [`kernels`]); the same output as `process_sample` on each sample.
+    pub fn process_block_f64(&mut self, input: &[f64], output: &mut [f64]) {
+        kernels::process_block_f64(self, input, output);
     }
 
     /// Clears the state: the next output is as if the filter had only ever seen zeros.

@@ -63,6 +63,20 @@ impl SectionCascade {
         self.gain
     }
 
+    /// Number of sections (each holds two state values).
+    pub fn section_count(&self) -> usize {
+        self.sections.len()
+    }
+
+    /// State as it stands, `[s0, s1]` per section (the block kernels load and store it).
+    pub(crate) fn state(&self) -> &[[f64; 2]] {
+        &self.state
+    }
+
+    pub(crate) fn state_mut(&mut self) -> &mut [[f64; 2]] {
+        &mut self.state
+    }
+
     /// Sections as run, in running order (rounded to the run precision).
     pub fn sections(&self) -> &[SectionCoefficients] {
         &self.sections

@@ -19,6 +19,7 @@ mod duplex;
 mod error;
 mod playback_side;
 pub mod ring;
+mod round_trip;
 mod samples;
 mod stream_choice;
 mod stream_errors;
@@ -29,6 +30,7 @@ pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, Strea
 pub use error::{Direction, LiveError};
 pub use playback_side::PlaybackSide;
 pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
+pub use round_trip::{record_loop, LoopRecording, LoopRequest};
 pub use samples::{DeviceFormat, DeviceSample};
 pub use stream_choice::DEFAULT_PERIOD_FRAMES;
 pub use stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};

@@ -1,0 +1,181 @@
+//! Per-sample cost of the processing paths (criterion): every structure at orders 2, 8, 16 and
+//! 32; 1, 2, 8 and 32 channels; blocks of 32, 64 and 256 frames; f32 audio in and out, f64
+//! state. `plain` runs each channel's filter sample by sample, channel after channel (the
+//! reference path); `fast` runs the block kernels (one channel) or the channel bank (vector
+//! lanes). Throughput is in samples (frames × channels), so criterion's elements/s are
+//! samples/s. A last group runs a decaying tail (silence after an impulse, through the
+//! subnormal range) against noise, with and without flush-to-zero.
+//!
+//! `cargo bench --bench kernels` runs everything (a few minutes); a filter argument narrows it,
+//! e.g. `cargo bench --bench kernels -- 'sections/order32'`.
+
+use std::hint::black_box;
+use std::time::Duration;
+
+use criterion::{criterion_group, criterion_main, BatchSize, BenchmarkId, Criterion, Throughput};
+use num_complex::Complex64;
+use redress::engine::flush_denormals_on_this_thread;
+use redress::model::{CoefficientPrecision, Structure, TransferFunction};
+use redress::numeric::poly::from_roots;
+use redress::realize::kernels::ChannelBank;
+use redress::realize::{realize, Filter};
+
+const ORDERS: [usize; 4] = [2, 8, 16, 32];
+const CHANNELS: [usize; 4] = [1, 2, 8, 32];
+const BLOCKS: [usize; 3] = [32, 64, 256];
+/// Frames per measured call sequence (several blocks).
+const FRAMES: usize = 2048;
+
+/// A stable minimum-phase design of even `order`: pole pairs at radii 0.60–0.95 and zero pairs
+/// at 0.30–0.90, angles spread over the band (deterministic: an invented inverse of the kind
+/// redress runs).
+fn design(order: usize) -> TransferFunction {
+    let pairs = order / 2;
+    let mut poles = Vec::new();
+    let mut zeros = Vec::new();
+    for i in 0..pairs {
+        let f = (i as f64 + 0.5) / pairs as f64;
+        let pole = Complex64::from_polar(0.60 + 0.35 * f, 0.1 + 2.9 * f);
+        let zero = Complex64::from_polar(0.90 - 0.60 * f, 0.3 + 2.5 * (1.0 - f));
+        poles.extend([pole, pole.conj()]);
+        zeros.extend([zero, zero.conj()]);
+    }
+    TransferFunction::new(
+        from_roots(0.8, &zeros).expect("finite"),
+        from_roots(1.0, &poles).expect("finite"),
+    )
+}
+
+fn structure_name(s: Structure) -> &'static str {
+    match s {
+        Structure::DirectForm2T => "direct_form",
+        Structure::Sections => "sections",
+        Structure::LatticeLadder => "lattice",
+    }
+}
+
+/// Deterministic noise, interleaved over `channels`.
+fn noise(frames: usize, channels: usize) -> Vec<f32> {
+    let mut state = 0x2545_f491_4f6c_dd1du64;
+    (0..frames * channels)
+        .map(|_| {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            ((state >> 40) as f32 / (1u64 << 24) as f32 - 0.5) * 0.5
+        })
+        .collect()
+}
+
+fn plain(filters: &mut [Filter], input: &[f32], output: &mut [f32], channels: usize) {
+    for (c, f) in filters.iter_mut().enumerate() {
+        for (x, y) in input
+            .chunks_exact(channels)
+            .zip(output.chunks_exact_mut(channels))
+        {
+            y[c] = f.process_sample(f64::from(x[c])) as f32;
+        }
+    }
+}
+
+fn kernels(c: &mut Criterion) {
+    for structure in [
+        Structure::DirectForm2T,
+        Structure::Sections,
+        Structure::LatticeLadder,
+    ] {
+        for order in ORDERS {
+            let filter = match realize(&design(order), structure, CoefficientPrecision::F32) {
+                Ok(r) => r.filter,
+                Err(e) => {
+                    eprintln!("skipping {} order {order}: {e}", structure_name(structure));
+                    continue;
+                }
+            };
+            let mut group =
+                c.benchmark_group(format!("{}/order{order}", structure_name(structure)));
+            group
+                .warm_up_time(Duration::from_millis(200))
+                .measurement_time(Duration::from_millis(600))
+                .sample_size(10);
+            for channels in CHANNELS {
+                let input = noise(FRAMES, channels);
+                let mut output = vec![0.0f32; input.len()];
+                group.throughput(Throughput::Elements((FRAMES * channels) as u64));
+                for block in BLOCKS {
+                    let id = format!("ch{channels}/block{block}");
+                    let step = block * channels;
+                    let mut filters = vec![filter.clone(); channels];
+                    group.bench_function(BenchmarkId::new("plain", &id), |b| {
+                        b.iter(|| {
+                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                                plain(&mut filters, x, y, channels);
+                            }
+                            black_box(&output);
+                        })
+                    });
+                    let mut bank = ChannelBank::new(vec![filter.clone(); channels]);
+                    group.bench_function(BenchmarkId::new("fast", &id), |b| {
+                        b.iter(|| {
+                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                                bank.process_f32(x, y);
+                            }
+                            black_box(&output);
+                        })
+                    });
+                }
+            }
+            group.finish();
+        }
+    }
+}
+
+/// Silence after a tiny impulse: the state decays through the subnormal range (below
+/// 2.2e-308) to zero, where CPUs slow down unless subnormals are flushed. The kernels flush
+/// them themselves; `thread_default` leaves the thread's own setting alone, `thread_ftz` sets
+/// flush-to-zero first as the engine does.
+fn decaying_tail(c: &mut Criterion) {
+    let frames = 16_384;
+    let filter = realize(&design(16), Structure::Sections, CoefficientPrecision::F32)
+        .expect("order 16 realizes")
+        .filter;
+    let mut primed = filter.clone();
+    primed.process_sample(1e-300);
+    let silence = vec![0.0f32; frames];
+    let input = noise(frames, 1);
+    let mut output = vec![0.0f32; frames];
+    let mut group = c.benchmark_group("tail/sections/order16");
+    group
+        .warm_up_time(Duration::from_millis(300))
+        .measurement_time(Duration::from_secs(1))
+        .sample_size(20)
+        .throughput(Throughput::Elements(frames as u64));
+    // Flush-to-zero stays on for the thread once set, so the plain settings run first.
+    for ftz in [false, true] {
+        if ftz {
+            flush_denormals_on_this_thread();
+        }
+        let label = if ftz { "thread_ftz" } else { "thread_default" };
+        for (what, signal, start) in [
+            ("noise", &input, &filter),
+            ("decaying_tail", &silence, &primed),
+        ] {
+            group.bench_function(BenchmarkId::new(what, label), |b| {
+                b.iter_batched_ref(
+                    || start.clone(),
+                    |f| {
+                        for (x, y) in signal.chunks(256).zip(output.chunks_mut(256)) {
+                            f.process_block(x, y);
+                        }
+                        black_box(&output);
+                    },
+                    BatchSize::SmallInput,
+                )
+            });
+        }
+    }
+    group.finish();
+}
+
+criterion_group!(benches, kernels, decaying_tail);
+criterion_main!(benches);

@@ -1,0 +1,292 @@
+//! Every channel of a multichannel signal, each with its own filter, run a block at a time:
+//! channels whose filters share a [`LaneShape`] run side by side in vector lanes (groups of 8,
+//! or 4 for what is left), the rest alone through their block kernel.
+//!
+//! Built (and sized) on the control side; [`ChannelBank::process`] and the other methods
+//! allocate nothing. Every channel's output is its filter's own `process_sample` output
+//! (to the bit, or by rounding only where a channel runs alone through the fused wavefront).
+
+use std::collections::BTreeMap;
+
+use super::super::Filter;
+use super::dispatch::{with_widest_vectors, Kernel};
+use super::lane_filter::{LaneFilter, LaneShape};
+use super::mono::process_inline;
+
+/// Frames moved through the scratch buffers at a time.
+pub const BANK_CHUNK_FRAMES: usize = 256;
+
+#[derive(Debug, Clone)]
+enum Unit {
+    Alone {
+        channel: usize,
+        filter: Filter,
+    },
+    Four {
+        channels: [usize; 4],
+        used: usize,
+        lanes: LaneFilter<4>,
+    },
+    Eight {
+        channels: [usize; 8],
+        used: usize,
+        lanes: LaneFilter<8>,
+    },
+}
+
+#[derive(Debug, Clone)]
+pub struct ChannelBank {
+    channels: usize,
+    units: Vec<Unit>,
+    /// Channel → (unit, lane).
+    place: Vec<(usize, usize)>,
+    /// Scratch: one channel in and out (channels alone), lane frames (groups), f64 frames for
+    /// the f32 entry.
+    alone_in: Vec<f64>,
+    alone_out: Vec<f64>,
+    lanes4: Vec<[f64; 4]>,
+    lanes8: Vec<[f64; 8]>,
+    interleaved: Vec<f64>,
+}
+
+/// Groups of size `L` that are worth vector lanes: at least this many real channels.
+const MIN_LANES_USED: usize = 2;
+
+impl ChannelBank {
+    /// One filter per channel, in channel order.
+    pub fn new(filters: Vec<Filter>) -> Self {
+        let channels = filters.len();
+        let mut by_shape: BTreeMap<LaneShape, Vec<usize>> = BTreeMap::new();
+        for (c, f) in filters.iter().enumerate() {
+            by_shape.entry(LaneShape::of(f)).or_default().push(c);
+        }
+        let mut units = Vec::new();
+        for members in by_shape.values() {
+            let mut rest: &[usize] = members;
+            while !rest.is_empty() {
+                let take = if rest.len() >= 5 { 8 } else { 4 }.min(rest.len());
+                let (group, tail) = rest.split_at(take);
+                rest = tail;
+                if group.len() < MIN_LANES_USED {
+                    for &c in group {
+                        units.push(Unit::Alone {
+                            channel: c,
+                            filter: filters[c].clone(),
+                        });
+                    }
+                    continue;
+                }
+                let refs: Vec<&Filter> = group.iter().map(|&c| &filters[c]).collect();
+                let unit = if group.len() > 4 {
+                    LaneFilter::<8>::new(&refs).map(|lanes| Unit::Eight {
+                        channels: std::array::from_fn(|i| group.get(i).copied().unwrap_or(0)),
+                        used: group.len(),
+                        lanes,
+                    })
+                } else {
+                    LaneFilter::<4>::new(&refs).map(|lanes| Unit::Four {
+                        channels: std::array::from_fn(|i| group.get(i).copied().unwrap_or(0)),
+                        used: group.len(),
+                        lanes,
+                    })
+                };
+                match unit {
+                    Some(u) => units.push(u),
+                    // Unreachable by construction (one shape per group); run them alone.
+                    None => units.extend(group.iter().map(|&c| Unit::Alone {
+                        channel: c,
+                        filter: filters[c].clone(),
+                    })),
+                }
+            }
+        }
+        let mut place = vec![(0, 0); channels];
+        for (u, unit) in units.iter().enumerate() {
+            match unit {
+                Unit::Alone { channel, .. } => place[*channel] = (u, 0),
+                Unit::Four { channels, used, .. } => {
+                    for (l, &c) in channels.iter().take(*used).enumerate() {
+                        place[c] = (u, l);
+                    }
+                }
+                Unit::Eight { channels, used, .. } => {
+                    for (l, &c) in channels.iter().take(*used).enumerate() {
+                        place[c] = (u, l);
+                    }
+                }
+            }
+        }
+        Self {
+            channels,
+            units,
+            place,
+            alone_in: vec![0.0; BANK_CHUNK_FRAMES],
+            alone_out: vec![0.0; BANK_CHUNK_FRAMES],
+            lanes4: vec![[0.0; 4]; BANK_CHUNK_FRAMES],
+            lanes8: vec![[0.0; 8]; BANK_CHUNK_FRAMES],
+            interleaved: vec![0.0; BANK_CHUNK_FRAMES * channels],
+        }
+    }
+
+    pub fn channel_count(&self) -> usize {
+        self.channels
+    }
+
+    /// How many channels run in vector lanes (the rest run alone).
+    pub fn channels_in_lanes(&self) -> usize {
+        self.units
+            .iter()
+            .map(|u| match u {
+                Unit::Alone { .. } => 0,
+                Unit::Four { used, .. } | Unit::Eight { used, .. } => *used,
+            })
+            .sum()
+    }
+
+    /// Filters interleaved f32 frames into interleaved f64 frames (whole frames of the shorter
+    /// slice; the rest of `output` is left as it was), carrying state from call to call.
+    pub fn process(&mut self, input: &[f32], output: &mut [f64]) {
+        with_widest_vectors(BankBlock {
+            bank: self,
+            input,
+            output,
+        })
+    }
+
+    /// As [`ChannelBank::process`], into f32 frames (each output rounded once, from f64).
+    pub fn process_f32(&mut self, input: &[f32], output: &mut [f32]) {
+        let channels = self.channels.max(1);
+        let step = BANK_CHUNK_FRAMES * channels;
+        let mut scratch = std::mem::take(&mut self.interleaved);
+        for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+            let n = x.len().min(y.len()) / channels * channels;
+            self.process(&x[..n], &mut scratch[..n]);
+            for (out, v) in y[..n].iter_mut().zip(&scratch[..n]) {
+                *out = *v as f32;
+            }
+        }
+        self.interleaved = scratch;
+    }
+
+    #[inline(always)]
+    fn process_inline(&mut self, input: &[f32], output: &mut [f64]) {
+        let channels = self.channels;
+        if channels == 0 {
+            return;
+        }
+        let frames = input.len().min(output.len()) / channels;
+        let mut start = 0;
+        while start < frames {
+            let n = (frames - start).min(BANK_CHUNK_FRAMES);
+            let x = &input[start * channels..(start + n) * channels];
+            let y = &mut output[start * channels..(start + n) * channels];
+            for unit in self.units.iter_mut() {
+                match unit {
+                    Unit::Alone { channel, filter } => {
+                        let (xin, yout) = (&mut self.alone_in[..n], &mut self.alone_out[..n]);
+                        for (v, frame) in xin.iter_mut().zip(x.chunks_exact(channels)) {
+                            *v = f64::from(frame[*channel]);
+                        }
+                        process_inline(filter, xin, yout);
+                        for (v, frame) in yout.iter().zip(y.chunks_exact_mut(channels)) {
+                            frame[*channel] = *v;
+                        }
+                    }
+                    Unit::Four {
+                        channels: lanes_of,
+                        used,
+                        lanes,
+                    } => run_lanes(
+                        lanes,
+                        lanes_of,
+                        *used,
+                        &mut self.lanes4[..n],
+                        channels,
+                        x,
+                        y,
+                    ),
+                    Unit::Eight {
+                        channels: lanes_of,
+                        used,
+                        lanes,
+                    } => run_lanes(
+                        lanes,
+                        lanes_of,
+                        *used,
+                        &mut self.lanes8[..n],
+                        channels,
+                        x,
+                        y,
+                    ),
+                }
+            }
+            start += n;
+        }
+    }
+
+    /// One sample of one channel (an absent channel passes through).
+    pub fn process_channel_sample(&mut self, channel: usize, x: f64) -> f64 {
+        let Some(&(u, lane)) = self.place.get(channel) else {
+            return x;
+        };
+        match self.units.get_mut(u) {
+            Some(Unit::Alone { filter, .. }) => filter.process_sample(x),
+            Some(Unit::Four { lanes, .. }) => lanes.step_lane(lane, x),
+            Some(Unit::Eight { lanes, .. }) => lanes.step_lane(lane, x),
+            None => x,
+        }
+    }
+
+    /// Clears every channel's state.
+    pub fn reset(&mut self) {
+        for unit in &mut self.units {
+            match unit {
+                Unit::Alone { filter, .. } => filter.reset(),
+                Unit::Four { lanes, .. } => lanes.reset(),
+                Unit::Eight { lanes, .. } => lanes.reset(),
+            }
+        }
+    }
+}
+
+struct BankBlock<'a> {
+    bank: &'a mut ChannelBank,
+    input: &'a [f32],
+    output: &'a mut [f64],
+}
+
+impl Kernel for BankBlock<'_> {
+    type Output = ();
+    #[inline(always)]
+    fn run(self) {
+        self.bank.process_inline(self.input, self.output)
+    }
+}
+
+/// Gathers the group's channels into lane frames, filters them, scatters them back.
+#[inline(always)]
+fn run_lanes<const L: usize>(
+    lanes: &mut LaneFilter<L>,
+    lanes_of: &[usize; L],
+    used: usize,
+    frames: &mut [[f64; L]],
+    channels: usize,
+    x: &[f32],
+    y: &mut [f64],
+) {
+    for (lane_frame, frame) in frames.iter_mut().zip(x.chunks_exact(channels)) {
+        for l in 0..L {
+            lane_frame[l] = if l < used {
+                f64::from(frame[lanes_of[l]])
+            } else {
+                0.0
+            };
+        }
+    }
+    lanes.process(frames);
+    for (lane_frame, frame) in frames.iter().zip(y.chunks_exact_mut(channels)) {
+        for l in 0..used.min(L) {
+            frame[lanes_of[l]] = lane_frame[l];
+        }
+    }
+}

@@ -1,0 +1,249 @@
+//! Every fast path gives the per-sample path's output.
+//!
+//! Source: common practice — reordering *which* independent updates run together (block
+//! kernels, a wavefront over sections, channels in vector lanes) must not change any filter's
+//! own sequence of operations, so its output must equal `process_sample`'s. Measure: max over
+//! n of |y_fast(n) − y_plain(n)| ≤ 1e-12 × max over n of |y_plain(n)| (identical to the bit except
+//! where a kernel fuses multiply-adds: the sections wavefront on AVX2/AVX-512). Designs: random stable poles and zeros (radii 0.05…0.97, conjugate
+//! pairs and reals, orders 1…34), realized in all three structures at f32 and f64
+//! coefficients; blocks cut at random lengths, including 0 and 1.
+
+use num_complex::Complex64;
+use proptest::prelude::*;
+
+use crate::model::{CoefficientPrecision, Structure, TransferFunction};
+use crate::numeric::poly::{from_roots, multiply};
+use crate::realize::{realize, Filter};
+
+use super::{process_block_f64, ChannelBank, MAX_WAVEFRONT_SECTIONS};
+
+const RELATIVE_TOLERANCE: f64 = 1e-12;
+
+fn roots(pairs: &[(f64, f64)], reals: &[f64]) -> Vec<Complex64> {
+    let mut out = Vec::new();
+    for &(r, angle) in pairs {
+        let z = Complex64::from_polar(r, angle);
+        out.push(z);
+        out.push(z.conj());
+    }
+    out.extend(reals.iter().map(|&r| Complex64::new(r, 0.0)));
+    out
+}
+
+/// A stable design with up to `max_pairs` pole pairs and zero pairs plus a few reals.
+fn design(max_pairs: usize) -> impl Strategy<Value = TransferFunction> {
+    let pair = || (0.05..0.97f64, 0.05..3.09f64);
+    let real = || (0.05..0.97f64, any::<bool>()).prop_map(|(r, n)| if n { -r } else { r });
+    (
+        prop::collection::vec(pair(), 0..=max_pairs),
+        prop::collection::vec(real(), 0..=2),
+        prop::collection::vec(pair(), 0..=max_pairs),
+        prop::collection::vec(real(), 0..=2),
+        0.2..5.0f64,
+    )
+        .prop_map(|(pp, pr, zp, zr, gain)| {
+            let a = from_roots(1.0, &roots(&pp, &pr)).unwrap();
+            let b = from_roots(gain, &roots(&zp, &zr)).unwrap();
+            TransferFunction::new(b, a)
+        })
+}
+
+fn filters_of(design: &TransferFunction) -> Vec<Filter> {
+    let mut out = Vec::new();
+    for structure in [
+        Structure::DirectForm2T,
+        Structure::Sections,
+        Structure::LatticeLadder,
+    ] {
+        for precision in [CoefficientPrecision::F32, CoefficientPrecision::F64] {
+            if let Ok(r) = realize(design, structure, precision) {
+                out.push(r.filter);
+            }
+        }
+    }
+    out
+}
+
+/// Deterministic noise with a step and a stretch of silence (a decaying tail).
+fn signal(n: usize, seed: u64) -> Vec<f64> {
+    let mut state = seed
+        .wrapping_mul(6364136223846793005)
+        .wrapping_add(1442695040888963407);
+    (0..n)
+        .map(|i| {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let noise = ((state >> 11) as f64 / (1u64 << 53) as f64) - 0.5;
+            if i > n * 3 / 4 {
+                0.0
+            } else {
+                noise + if i > n / 3 { 0.3 } else { 0.0 }
+            }
+        })
+        .collect()
+}
+
+fn assert_close(fast: &[f64], plain: &[f64], what: &str) -> Result<(), TestCaseError> {
+    let peak = plain.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let worst = fast
+        .iter()
+        .zip(plain)
+        .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+    prop_assert!(
+        worst <= RELATIVE_TOLERANCE * peak,
+        "{what}: worst difference {worst:e} against peak {peak:e}"
+    );
+    prop_assert_eq!(fast.len(), plain.len());
+    Ok(())
+}
+
+fn plain_run(filter: &Filter, input: &[f64]) -> Vec<f64> {
+    let mut f = filter.clone();
+    input.iter().map(|&x| f.process_sample(x)).collect()
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(48))]
+
+    #[test]
+    fn block_kernels_equal_the_per_sample_path(
+        design in design(17),
+        cuts in prop::collection::vec(0usize..300, 1..12),
+        seed in any::<u64>(),
+    ) {
+        let input = signal(1500, seed);
+        for filter in filters_of(&design) {
+            let expected = plain_run(&filter, &input);
+            let mut fast = filter.clone();
+            let mut out = vec![0.0; input.len()];
+            let mut start = 0;
+            for len in cuts.iter().cycle() {
+                if start >= input.len() {
+                    break;
+                }
+                let end = (start + len).min(input.len());
+                process_block_f64(&mut fast, &input[start..end], &mut out[start..end]);
+                start = end;
+            }
+            let what = format!("{} (order {})", kind(&filter), filter.order());
+            assert_close(&out, &expected, &what)?;
+            // The state left behind is the per-sample path's too: one more sample agrees.
+            let mut plain = filter.clone();
+            for &x in &input {
+                plain.process_sample(x);
+            }
+            prop_assert_eq!(fast.process_sample(0.25), plain.process_sample(0.25));
+        }
+    }
+
+    #[test]
+    fn channel_bank_equals_each_channel_alone(
+        designs in prop::collection::vec(design(9), 1..4),
+        picks in prop::collection::vec(0usize..64, 1..13),
+        cuts in prop::collection::vec(1usize..400, 1..6),
+        seed in any::<u64>(),
+    ) {
+        let pool: Vec<Filter> = designs.iter().flat_map(filters_of).collect();
+        prop_assume!(!pool.is_empty());
+        let filters: Vec<Filter> = picks.iter().map(|&p| pool[p % pool.len()].clone()).collect();
+        let channels = filters.len();
+        let frames = 900;
+        let planar: Vec<Vec<f64>> = (0..channels)
+            .map(|c| signal(frames, seed ^ (c as u64 * 7919)).iter().map(|&v| f64::from(v as f32)).collect())
+            .collect();
+        let interleaved: Vec<f32> = (0..frames)
+            .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
+            .collect();
+        let mut bank = ChannelBank::new(filters.clone());
+        let mut out = vec![0.0f64; interleaved.len()];
+        let mut start = 0;
+        for (turn, len) in cuts.iter().cycle().enumerate() {
+            if start >= frames {
+                break;
+            }
+            // Every third cut goes one sample at a time through the per-channel entry.
+            let end = (start + len).min(frames);
+            if turn % 3 == 2 {
+                for n in start..end {
+                    for c in 0..channels {
+                        out[n * channels + c] =
+                            bank.process_channel_sample(c, f64::from(interleaved[n * channels + c]));
+                    }
+                }
+            } else {
+                bank.process(
+                    &interleaved[start * channels..end * channels],
+                    &mut out[start * channels..end * channels],
+                );
+            }
+            start = end;
+        }
+        for (c, filter) in filters.iter().enumerate() {
+            let expected = plain_run(filter, &planar[c]);
+            let got: Vec<f64> = (0..frames).map(|n| out[n * channels + c]).collect();
+            let what = format!("channel {c} of {channels}: {} (order {}), {} in lanes",
+                kind(filter), filter.order(), bank.channels_in_lanes());
+            assert_close(&got, &expected, &what)?;
+        }
+    }
+}
+
+fn kind(filter: &Filter) -> &'static str {
+    match filter {
+        Filter::DirectForm2T(_) => "direct form",
+        Filter::Sections(_) => "sections",
+        Filter::LatticeLadder(_) => "lattice",
+    }
+}
+
+// Source: common practice — the wavefront must cover every cascade length it is used for,
+// including the longest, and blocks shorter than the cascade.
+#[test]
+fn wavefront_covers_every_section_count() {
+    let mut tested = 0;
+    for pairs in 1..=MAX_WAVEFRONT_SECTIONS + 1 {
+        let poles: Vec<(f64, f64)> = (0..pairs)
+            .map(|i| {
+                (
+                    0.5 + 0.4 * (i as f64 / pairs as f64),
+                    0.1 + 2.9 * i as f64 / pairs as f64,
+                )
+            })
+            .collect();
+        let zeros: Vec<(f64, f64)> = poles.iter().map(|&(r, a)| (r * 0.9, a + 0.03)).collect();
+        // Multiplied out as real quadratics 1 − 2r·cos(θ)z⁻¹ + r²z⁻².
+        let product = |rs: &[(f64, f64)], gain: f64| {
+            rs.iter().fold(vec![gain], |acc, &(r, a)| {
+                multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
+            })
+        };
+        let design = TransferFunction::new(product(&zeros, 1.5), product(&poles, 1.0));
+        let Ok(r) = realize(&design, Structure::Sections, CoefficientPrecision::F64) else {
+            continue;
+        };
+        let input = signal(700, pairs as u64);
+        let expected = plain_run(&r.filter, &input);
+        for block in [1, 3, pairs, 64, 700] {
+            let mut f = r.filter.clone();
+            let mut out = vec![0.0; input.len()];
+            for (x, y) in input.chunks(block).zip(out.chunks_mut(block)) {
+                process_block_f64(&mut f, x, y);
+            }
+            let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            let worst = out
+                .iter()
+                .zip(&expected)
+                .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+            assert!(
+                worst <= RELATIVE_TOLERANCE * peak,
+                "{pairs} sections, blocks of {block}: {worst:e} against {peak:e}"
+            );
+        }
+        tested += 1;
+    }
+    assert!(
+        tested > MAX_WAVEFRONT_SECTIONS / 2,
+        "only {tested} cascades realized"
+    );
+}
