@@ -22,4 +22,4 @@ pub use signals::SignalFlags;
 pub use socket_path::{current_uid, default_socket_path};
 pub use status::{render_status_text, ServiceStatus};
 pub use status_client::{query_status, StatusQueryError};
-pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_REQUEST_BYTES};
+pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_CLIENTS, MAX_REQUEST_BYTES};
