@@ -14,6 +14,10 @@ use crate::io::live::{StreamErrorCounts, StreamErrorKind, StreamErrorTally};
 
 /// No frame for this long while the devices keep reporting errors: lost.
 pub const STALL_WITH_ERRORS: Duration = Duration::from_secs(1);
+/// This many errors without a frame in between is a flood, not a hiccup…
+pub const ERROR_FLOOD: u64 = 1000;
+/// …and a flood that has lasted this long (with no frame) is a loss.
+pub const FLOOD_STALL: Duration = Duration::from_millis(200);
 /// No frame for this long, errors or not: lost (a stream that never delivers is as good as gone).
 pub const STALL_SILENT: Duration = Duration::from_secs(4);
 /// First wait before trying to open the devices again; doubled after every failed try…
@@ -83,7 +87,8 @@ impl DeviceWatch {
         }
         self.errors_since_progress += new_input + new_output;
         let stalled = now.saturating_duration_since(self.last_progress);
-        if stalled >= STALL_WITH_ERRORS && self.errors_since_progress > 0 {
+        let flood = self.errors_since_progress >= ERROR_FLOOD && stalled >= FLOOD_STALL;
+        if flood || (stalled >= STALL_WITH_ERRORS && self.errors_since_progress > 0) {
             return Health::Lost(format!(
                 "no audio for {:.1} s while the devices report errors ({}; {})",
                 stalled.as_secs_f64(),
@@ -194,7 +199,7 @@ mod tests {
         let mut at = 0;
         for i in 2..200u64 {
             let errors = StreamErrorCounts {
-                input: tally(i * 50, StreamErrorKind::Backend),
+                input: tally(i, StreamErrorKind::Backend),
                 output: StreamErrorTally::default(),
             };
             verdict = watch.observe(ms(t0, 20 * i), 256, errors);
@@ -209,6 +214,31 @@ mod tests {
         }
         // Declared once the stall reached STALL_WITH_ERRORS after the last frame (at 20 ms).
         assert_eq!(at, 20 + STALL_WITH_ERRORS.as_millis() as u64);
+    }
+
+    // A backend whose server has gone (the PulseAudio plugin, for one) reports an error per
+    // poll, tens of thousands a second: that is a loss well before the one-second rule.
+    #[test]
+    fn an_error_flood_without_frames_is_a_loss_within_its_short_wait() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        assert_eq!(
+            watch.observe(ms(t0, 20), 256, StreamErrorCounts::default()),
+            Health::Running
+        );
+        let flood = |n: u64| StreamErrorCounts {
+            input: tally(n, StreamErrorKind::Backend),
+            output: tally(n, StreamErrorKind::Backend),
+        };
+        let stall_ms = FLOOD_STALL.as_millis() as u64;
+        assert_eq!(
+            watch.observe(ms(t0, 20 + stall_ms - 20), 256, flood(5000)),
+            Health::Running
+        );
+        assert!(matches!(
+            watch.observe(ms(t0, 20 + stall_ms), 256, flood(6000)),
+            Health::Lost(_)
+        ));
     }
 
     #[test]

@@ -60,8 +60,9 @@ struct Service {
     audio: Option<RunningAudio>,
     reloads: ReloadStatus,
     restarts: u64,
-    /// Stream errors already logged.
+    /// Stream errors already logged, and when the last such line was written.
     seen_stream_errors: u64,
+    last_error_log: Option<Instant>,
     started: Instant,
     document: SharedDocument,
     /// A filter set accepted by a reload but not yet taken by the engine (its inbox was full:
@@ -132,6 +133,7 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         reloads: ReloadStatus::default(),
         restarts: 0,
         seen_stream_errors: 0,
+        last_error_log: None,
         started: Instant::now(),
         document,
         pending: None,
@@ -381,7 +383,12 @@ impl Service {
         };
         audio.control.collect_returned();
         let errors = audio.status(self.restarts).stream_errors;
-        if errors > self.seen_stream_errors {
+        // At most one line a second: a failing backend can report thousands of errors a tick.
+        let quiet = self
+            .last_error_log
+            .is_some_and(|t| t.elapsed() < Duration::from_secs(1));
+        if errors > self.seen_stream_errors && !quiet {
+            self.last_error_log = Some(Instant::now());
             warn!(
                 "the audio device reported {} more stream error(s) ({} in all)",
                 errors - self.seen_stream_errors,
