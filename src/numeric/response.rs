@@ -72,8 +72,11 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
         }
     }
     let mut best = refine(&level, grid_best, step);
-    for &angle in pole_angles {
-        let w = angle.clamp(0.0, PI);
+    // Conjugate pairs and repeated roots give the same angle twice or more: one search each.
+    let mut angles: Vec<f64> = pole_angles.iter().map(|a| a.clamp(0.0, PI)).collect();
+    angles.sort_by(f64::total_cmp);
+    angles.dedup();
+    for &w in &angles {
         let candidate = refine(
             &level,
             Peak {
