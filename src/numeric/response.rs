@@ -57,20 +57,32 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
             v
         }
     };
-    let mut grid_best = Peak {
-        level_db: f64::NEG_INFINITY,
-        omega: 0.0,
+    // The grid compares |H|² (no square root, no logarithm per point: this loop is most of the
+    // cost of the boost cap's search); the winner's level is then taken in dB as before.
+    let power = |w: f64| {
+        let p = response_at(b, a, w).norm_sqr();
+        if p.is_nan() {
+            f64::INFINITY
+        } else {
+            p
+        }
     };
+    let (mut best_power, mut best_w) = (f64::NEG_INFINITY, 0.0);
     for i in 0..=points {
         let w = i as f64 * step;
-        let v = level(w);
-        if v > grid_best.level_db {
-            grid_best = Peak {
-                level_db: v,
-                omega: w,
-            };
+        let p = power(w);
+        if p > best_power {
+            (best_power, best_w) = (p, w);
         }
     }
+    let grid_best = Peak {
+        level_db: if best_power == f64::NEG_INFINITY {
+            f64::NEG_INFINITY
+        } else {
+            level(best_w)
+        },
+        omega: best_w,
+    };
     let mut best = refine(&level, grid_best, step);
     // Conjugate pairs and repeated roots give the same angle twice or more: one search each.
     let mut angles: Vec<f64> = pole_angles.iter().map(|a| a.clamp(0.0, PI)).collect();
