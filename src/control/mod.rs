@@ -2,6 +2,7 @@
 //! SIGTERM/SIGINT, a status socket, and plain log lines. Everything slow happens here, never on
 //! the audio thread.
 
+mod device_watch;
 mod error;
 mod logging;
 mod running;
@@ -12,6 +13,7 @@ mod status;
 mod status_client;
 mod status_server;
 
+pub use device_watch::{Backoff, DeviceWatch, Health};
 pub use error::ServiceError;
 pub use logging::init_logging;
 pub use running::{AudioSource, RunningAudio, DEFAULT_SIMULATED_BLOCK};
@@ -20,4 +22,4 @@ pub use signals::SignalFlags;
 pub use socket_path::{current_uid, default_socket_path};
 pub use status::{render_status_text, ServiceStatus};
 pub use status_client::{query_status, StatusQueryError};
-pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_REQUEST_BYTES};
+pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_CLIENTS, MAX_REQUEST_BYTES};

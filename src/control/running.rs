@@ -6,7 +6,7 @@ use std::time::{Duration, Instant};
 use super::status::{AudioStatus, SimulatedStatus};
 use super::ServiceError;
 use crate::engine::{engine_pair, EngineControl, EngineSettings, Equalizer};
-use crate::io::live::{start_duplex, DeviceRequest, DuplexStreams};
+use crate::io::live::{start_duplex, DeviceRequest, DuplexStreams, StreamErrorCounts};
 use crate::io::paced_link::{Alignment, PacedLink};
 use crate::model::{AudioSettings, EngineOptions, Link};
 use crate::numeric::poly::leading_zeros;
@@ -150,7 +150,37 @@ impl RunningAudio {
             block_period_us: self.block_frames.map(|b| 1e6 * b as f64 / self.sample_rate),
             stream_errors,
             restarts,
+            state: "running".to_string(),
+            device_losses: 0,
+            recoveries: 0,
+            last_loss: None,
+            last_retry_error: None,
         }
+    }
+
+    /// Frames the engine has processed since this start (advances only while audio flows).
+    pub fn frames(&self) -> u64 {
+        self.control
+            .stats()
+            .frames
+            .load(std::sync::atomic::Ordering::Relaxed)
+    }
+
+    /// Both streams' error tallies; `None` for the simulated link, which has no device to lose.
+    pub fn device_errors(&self) -> Option<StreamErrorCounts> {
+        match &self.driver {
+            Driver::Devices(d) => Some(d.stream_errors()),
+            Driver::Simulated(_) => None,
+        }
+    }
+
+    /// Stops the driver at once, without a fade (the devices are gone: nothing would play it).
+    pub fn stop_now(mut self) {
+        match self.driver {
+            Driver::Devices(d) => d.stop(),
+            Driver::Simulated(mut p) => p.stop(),
+        }
+        self.control.collect_returned();
     }
 
     pub fn simulated(&self) -> Option<SimulatedStatus> {

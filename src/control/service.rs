@@ -9,15 +9,16 @@ use std::path::{Path, PathBuf};
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
-use log::{error, info, warn};
+use log::{debug, error, info, warn};
 
+use super::device_watch::{Backoff, DeviceWatch, Health};
 use super::running::{AudioSource, RunningAudio};
 use super::signals::SignalFlags;
 use super::socket_path::current_uid;
-use super::status::{path_summaries, ReloadStatus, ServiceStatus};
+use super::status::{path_summaries, AudioStatus, ReloadStatus, ServiceStatus};
 use super::status_server::{SharedDocument, StatusServer};
 use super::ServiceError;
-use crate::engine::{EngineEvent, Equalizer};
+use crate::engine::{EngineEvent, Equalizer, StatsSnapshot};
 use crate::model::config::load_link;
 use crate::model::Link;
 use crate::pipeline::{plan_link, LinkPlan};
@@ -59,10 +60,32 @@ struct Service {
     audio: Option<RunningAudio>,
     reloads: ReloadStatus,
     restarts: u64,
-    /// Stream errors already logged.
+    /// Stream errors already logged, and when the last such line was written.
     seen_stream_errors: u64,
+    last_error_log: Option<Instant>,
     started: Instant,
     document: SharedDocument,
+    /// A filter set accepted by a reload but not yet taken by the engine (its inbox was full:
+    /// reloads came faster than crossfades). Replaced by a newer one; sent on a later tick.
+    pending: Option<Equalizer>,
+    /// Watches the devices of the running streams for loss.
+    watch: DeviceWatch,
+    /// Set while the devices are lost and being reopened.
+    recovery: Option<Recovery>,
+    device_losses: u64,
+    recoveries: u64,
+    last_loss: Option<String>,
+    last_retry_error: Option<String>,
+    /// What was last published about the audio and the engine, shown while there is none.
+    last_audio: Option<AudioStatus>,
+    last_engine: Option<StatsSnapshot>,
+}
+
+/// The devices are gone: when they went, and when to try them again.
+struct Recovery {
+    since: Instant,
+    next_try: Instant,
+    backoff: Backoff,
 }
 
 /// Runs the service until TERM/INT (or `run_for`). Returns once the audio has faded out and
@@ -110,8 +133,18 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         reloads: ReloadStatus::default(),
         restarts: 0,
         seen_stream_errors: 0,
+        last_error_log: None,
         started: Instant::now(),
         document,
+        pending: None,
+        watch: DeviceWatch::new(Instant::now()),
+        recovery: None,
+        device_losses: 0,
+        recoveries: 0,
+        last_loss: None,
+        last_retry_error: None,
+        last_audio: None,
+        last_engine: None,
     };
     info!(
         "running {} (generation 1) on {}; status on {}",
@@ -136,6 +169,8 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         if signals.take_reload() {
             service.reload();
         }
+        service.send_pending();
+        service.watch_devices();
         service.pump_events();
         if let Some(limit) = service.options.run_for {
             if service.started.elapsed() >= limit {
@@ -186,9 +221,13 @@ impl Service {
             warn!("{reason}: restarting the audio streams for generation {generation}");
             let fade = Duration::from_secs_f64(self.link.runtime.engine.fade_out_ms / 1000.0);
             if let Some(old) = self.audio.take() {
+                self.last_audio = Some(old.status(self.restarts));
+                self.last_engine = Some(old.control.snapshot());
                 old.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
             }
             self.seen_stream_errors = 0;
+            self.pending = None;
+            self.watch = DeviceWatch::new(Instant::now());
             match RunningAudio::start(&link, &plan, generation, &self.source) {
                 Ok(audio) => self.audio = Some(audio),
                 Err(e) => {
@@ -197,7 +236,13 @@ impl Service {
                     match RunningAudio::start(&self.link, &self.plan, self.generation, &self.source)
                     {
                         Ok(audio) => self.audio = Some(audio),
-                        Err(e2) => error!("restoring the previous configuration failed too: {e2}"),
+                        Err(e2) => {
+                            error!(
+                                "restoring the previous configuration failed too: {e2}; \
+                                 retrying with back-off"
+                            );
+                            self.enter_recovery(format!("{e2}"));
+                        }
                     }
                     return self.reject(format!("{e}"));
                 }
@@ -208,13 +253,15 @@ impl Service {
                 Ok(set) => set,
                 Err(e) => return self.reject(format!("{e}")),
             };
+            // While the devices are lost there is no engine: the set is built (so the config is
+            // known to run) and dropped; the restart builds the engine from the new plan.
             if let Some(audio) = self.audio.as_mut() {
-                if audio.control.send(set).is_err() {
-                    return self.reject(
-                        "the engine still has earlier filter sets queued; try the reload again \
-                         in a moment"
-                            .to_string(),
-                    );
+                if let Err(set) = audio.control.send(set) {
+                    // Reloads are coming faster than crossfades: this set waits here and
+                    // replaces any older one still waiting, so the newest always runs last.
+                    if self.pending.replace(set).is_some() {
+                        debug!("a reload was superseded before the engine took it");
+                    }
                 }
             }
         }
@@ -228,6 +275,93 @@ impl Service {
                 "path `{}`: {} in {}; gives up: {}",
                 p.label, p.method, p.structure, p.gives_up
             );
+        }
+        self.publish();
+    }
+
+    /// The streams are down (already stopped): log it and schedule the first attempt to reopen.
+    fn enter_recovery(&mut self, why: String) {
+        let now = Instant::now();
+        self.device_losses += 1;
+        let mut backoff = Backoff::default();
+        let wait = backoff.next_delay();
+        warn!(
+            "audio devices lost ({why}); generation {} stays loaded; reopening in {:.1} s",
+            self.generation,
+            wait.as_secs_f64()
+        );
+        self.last_loss = Some(why);
+        self.pending = None;
+        self.seen_stream_errors = 0;
+        self.recovery = Some(Recovery {
+            since: now,
+            next_try: now + wait,
+            backoff,
+        });
+        self.publish();
+    }
+
+    /// Hands the engine a filter set that was waiting for room in its inbox.
+    fn send_pending(&mut self) {
+        let (Some(set), Some(audio)) = (self.pending.take(), self.audio.as_mut()) else {
+            return;
+        };
+        if let Err(set) = audio.control.send(set) {
+            self.pending = Some(set);
+        }
+    }
+
+    /// Notices lost devices, and reopens them with exponential back-off. The configuration,
+    /// its plan and its generation stay as they are throughout; only the streams are rebuilt.
+    fn watch_devices(&mut self) {
+        let now = Instant::now();
+        if let Some(audio) = self.audio.as_ref() {
+            let Some(errors) = audio.device_errors() else {
+                return;
+            };
+            let Health::Lost(why) = self.watch.observe(now, audio.frames(), errors) else {
+                return;
+            };
+            if let Some(audio) = self.audio.take() {
+                self.last_audio = Some(audio.status(self.restarts));
+                self.last_engine = Some(audio.control.snapshot());
+                audio.stop_now();
+            }
+            self.enter_recovery(why);
+            return;
+        }
+        let Some(recovery) = self.recovery.as_mut() else {
+            return;
+        };
+        if now < recovery.next_try {
+            return;
+        }
+        match RunningAudio::start(&self.link, &self.plan, self.generation, &self.source) {
+            Ok(audio) => {
+                let attempts = recovery.backoff.attempts();
+                info!(
+                    "audio devices back after {:.1} s and {attempts} attempt(s): generation {} \
+                     running on {}",
+                    recovery.since.elapsed().as_secs_f64(),
+                    self.generation,
+                    audio.status(self.restarts).description
+                );
+                self.audio = Some(audio);
+                self.recovery = None;
+                self.recoveries += 1;
+                self.restarts += 1;
+                self.watch = DeviceWatch::new(Instant::now());
+            }
+            Err(e) => {
+                let wait = recovery.backoff.next_delay();
+                recovery.next_try = Instant::now() + wait;
+                warn!(
+                    "reopening the audio devices failed (attempt {}): {e}; next try in {:.1} s",
+                    recovery.backoff.attempts() - 1,
+                    wait.as_secs_f64()
+                );
+                self.last_retry_error = Some(e.to_string());
+            }
         }
         self.publish();
     }
@@ -249,7 +383,12 @@ impl Service {
         };
         audio.control.collect_returned();
         let errors = audio.status(self.restarts).stream_errors;
-        if errors > self.seen_stream_errors {
+        // At most one line a second: a failing backend can report thousands of errors a tick.
+        let quiet = self
+            .last_error_log
+            .is_some_and(|t| t.elapsed() < Duration::from_secs(1));
+        if errors > self.seen_stream_errors && !quiet {
+            self.last_error_log = Some(Instant::now());
             warn!(
                 "the audio device reported {} more stream error(s) ({} in all)",
                 errors - self.seen_stream_errors,
@@ -295,20 +434,36 @@ impl Service {
 
     /// Renders the status document for the socket.
     fn publish(&self) {
-        let Some(audio) = self.audio.as_ref() else {
-            return;
+        let (mut audio_status, engine, simulated) = match self.audio.as_ref() {
+            Some(audio) => (
+                audio.status(self.restarts),
+                audio.control.snapshot(),
+                audio.simulated(),
+            ),
+            // Devices lost: the last known figures, marked as recovering.
+            None => match (&self.last_audio, &self.last_engine) {
+                (Some(a), Some(e)) => (a.clone(), e.clone(), None),
+                _ => return,
+            },
         };
+        if self.recovery.is_some() {
+            audio_status.state = "recovering".to_string();
+        }
+        audio_status.device_losses = self.device_losses;
+        audio_status.recoveries = self.recoveries;
+        audio_status.last_loss = self.last_loss.clone();
+        audio_status.last_retry_error = self.last_retry_error.clone();
         let status = ServiceStatus {
             version: env!("CARGO_PKG_VERSION"),
             pid: std::process::id(),
             config_path: display(&self.options.config),
             config_generation: self.generation,
             uptime_seconds: self.started.elapsed().as_secs_f64(),
-            audio: audio.status(self.restarts),
+            audio: audio_status,
             reloads: self.reloads.clone(),
             paths: path_summaries(&self.plan),
-            engine: audio.control.snapshot(),
-            simulated: audio.simulated(),
+            engine,
+            simulated,
         };
         match serde_json::to_string(&status) {
             Ok(text) => {

@@ -37,6 +37,14 @@ pub struct AudioStatus {
     pub stream_errors: u64,
     /// Times the streams were restarted (device settings changed on reload).
     pub restarts: u64,
+    /// "running", or "recovering" while lost devices are being reopened.
+    pub state: String,
+    /// Times the devices were found gone, and times they were got back.
+    pub device_losses: u64,
+    pub recoveries: u64,
+    /// How the last loss was seen, and the last failed attempt to reopen, if any.
+    pub last_loss: Option<String>,
+    pub last_retry_error: Option<String>,
 }
 
 #[derive(Debug, Clone, Default, Serialize)]
@@ -126,6 +134,23 @@ pub fn render_status_text(doc: &Value) -> String {
             .map(|b| format!(", {b}-frame blocks"))
             .unwrap_or_default()
     ));
+    if audio["state"].as_str() == Some("recovering") {
+        out.push_str(&format!(
+            "             DEVICES LOST, reopening with back-off: {}{}\n",
+            s(&audio["last_loss"]),
+            audio["last_retry_error"]
+                .as_str()
+                .map(|e| format!(" (last try: {e})"))
+                .unwrap_or_default()
+        ));
+    }
+    if u(&audio["device_losses"]) > 0 {
+        out.push_str(&format!(
+            "             devices lost {} time(s), recovered {} time(s)\n",
+            u(&audio["device_losses"]),
+            u(&audio["recoveries"])
+        ));
+    }
     let period = audio["block_period_us"].as_f64();
     out.push_str(&format!(
         "callback     p50 {:.1} µs, p99 {:.1} µs, max {:.1} µs{}\n",

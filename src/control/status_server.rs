@@ -2,18 +2,20 @@
 //!
 //! Protocol (ours): the client sends one line, `status`; the server answers with one line of
 //! JSON (the service's status document) and closes. Anything else gets `{"error": …}`.
-//! The server runs on its own thread and only ever reads a pre-rendered document, so a slow,
-//! silent or hostile client can delay other clients by at most the timeouts below, and never
-//! the control thread or the audio thread.
+//! The server runs on its own thread and only ever reads a pre-rendered document. Each
+//! connection is answered on a short-lived thread of its own, at most [`MAX_CLIENTS`] at once
+//! (more are told the service is busy and closed at once), each bounded by the timeouts below:
+//! a slow, silent or hostile client holds one slot for at most about a second, never delays the
+//! others by more than that, and never touches the control thread or the audio thread.
 
 use std::io::{ErrorKind, Read, Write};
 use std::os::unix::fs::FileTypeExt;
 use std::os::unix::net::{UnixListener, UnixStream};
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
 use std::thread::JoinHandle;
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
 use super::socket_path::{prepare_private_dir, restrict_socket};
 use super::ServiceError;
@@ -22,6 +24,14 @@ use super::ServiceError;
 pub const MAX_REQUEST_BYTES: usize = 256;
 /// How long a client may take to send its request or to read the answer.
 pub const CLIENT_TIMEOUT: Duration = Duration::from_millis(500);
+
+/// Connections answered at once; more are told to try again.
+pub const MAX_CLIENTS: usize = 32;
+/// Refused connections kept open for a moment (so the refusal is read, not reset); beyond this
+/// many they are closed at once.
+const MAX_REFUSED: usize = 256;
+/// Stack of a client thread: it only copies a pre-rendered document.
+const CLIENT_STACK_BYTES: usize = 64 * 1024;
 
 /// The document the server hands out, replaced whole by the control thread.
 pub type SharedDocument = Arc<Mutex<Arc<String>>>;
@@ -110,15 +120,75 @@ fn claim_path(path: &Path) -> Result<(), ServiceError> {
 }
 
 fn serve(listener: UnixListener, document: SharedDocument, stop: Arc<AtomicBool>) {
+    let active = Arc::new(AtomicUsize::new(0));
+    let mut refused: Vec<(UnixStream, Instant)> = Vec::new();
     while !stop.load(Ordering::Acquire) {
         match listener.accept() {
-            Ok((stream, _)) => answer(stream, &document),
+            Ok((stream, _)) => {
+                if let Some(busy) = dispatch(stream, &document, &active) {
+                    if refused.len() < MAX_REFUSED {
+                        refused.push((busy, Instant::now() + CLIENT_TIMEOUT));
+                    }
+                }
+            }
             Err(e) if e.kind() == ErrorKind::WouldBlock => {
                 std::thread::sleep(Duration::from_millis(20));
             }
             Err(_) => std::thread::sleep(Duration::from_millis(20)),
         }
+        let now = Instant::now();
+        refused.retain_mut(|(stream, until)| {
+            if now < *until {
+                return true;
+            }
+            // Closing with unread input would reset the connection and destroy the refusal
+            // before the client reads it: discard what it sent first (non-blocking, bounded).
+            let mut sink = [0u8; 4096];
+            for _ in 0..16 {
+                if !matches!(stream.read(&mut sink), Ok(n) if n > 0) {
+                    break;
+                }
+            }
+            false
+        });
     }
+}
+
+/// Answers `stream` on a thread of its own; when every slot is taken, tells the client so and
+/// gives the connection back to be closed a little later.
+fn dispatch(
+    stream: UnixStream,
+    document: &SharedDocument,
+    active: &Arc<AtomicUsize>,
+) -> Option<UnixStream> {
+    if active.fetch_add(1, Ordering::AcqRel) >= MAX_CLIENTS {
+        active.fetch_sub(1, Ordering::AcqRel);
+        return refuse_busy(stream);
+    }
+    let document = Arc::clone(document);
+    let slot = Arc::clone(active);
+    let spawned = std::thread::Builder::new()
+        .name("redress-status-client".into())
+        .stack_size(CLIENT_STACK_BYTES)
+        .spawn(move || {
+            answer(stream, &document);
+            slot.fetch_sub(1, Ordering::AcqRel);
+        });
+    if spawned.is_err() {
+        active.fetch_sub(1, Ordering::AcqRel);
+    }
+    None
+}
+
+/// Tells a client over the limit to come back, without waiting on it in any way.
+fn refuse_busy(mut stream: UnixStream) -> Option<UnixStream> {
+    stream.set_nonblocking(true).ok()?;
+    let reply = error_reply(&format!(
+        "the status socket is busy ({MAX_CLIENTS} clients at once); try again shortly"
+    ));
+    let _ = stream.write_all(reply.as_bytes());
+    let _ = stream.shutdown(std::net::Shutdown::Write);
+    Some(stream)
 }
 
 fn answer(mut stream: UnixStream, document: &SharedDocument) {
@@ -128,7 +198,9 @@ fn answer(mut stream: UnixStream, document: &SharedDocument) {
     {
         return;
     }
-    let reply = match read_request(&mut stream) {
+    // One deadline for the whole exchange, so a client trickling bytes cannot stretch it.
+    let deadline = Instant::now() + 2 * CLIENT_TIMEOUT;
+    let reply = match read_request(&mut stream, deadline) {
         Ok(request) if request == "status" => {
             let doc = document.lock().map(|d| Arc::clone(&d)).ok();
             match doc {
@@ -149,7 +221,7 @@ fn answer(mut stream: UnixStream, document: &SharedDocument) {
     let _ = stream.shutdown(std::net::Shutdown::Write);
     let mut sink = [0u8; 4096];
     let mut drained = 0;
-    while drained < MAX_DRAIN_BYTES {
+    while drained < MAX_DRAIN_BYTES && Instant::now() < deadline {
         match stream.read(&mut sink) {
             Ok(0) | Err(_) => break,
             Ok(n) => drained += n,
@@ -161,10 +233,13 @@ fn answer(mut stream: UnixStream, document: &SharedDocument) {
 const MAX_DRAIN_BYTES: usize = 64 * 1024;
 
 /// Reads one request line of at most [`MAX_REQUEST_BYTES`].
-fn read_request(stream: &mut UnixStream) -> Result<String, String> {
+fn read_request(stream: &mut UnixStream, deadline: Instant) -> Result<String, String> {
     let mut buf = [0u8; MAX_REQUEST_BYTES + 1];
     let mut len = 0;
     loop {
+        if Instant::now() >= deadline {
+            return Err("the request did not arrive in time".into());
+        }
         match stream.read(&mut buf[len..]) {
             Ok(0) => break,
             Ok(n) => {

@@ -32,6 +32,8 @@ pub enum IoError {
         found: u32,
         expected: u32,
     },
+    /// The output names the input file itself: writing it would destroy the input mid-read.
+    OutputIsInput { file: PathBuf },
     /// A block handed to the writer is not a whole number of frames.
     PartialFrame {
         file: PathBuf,
@@ -51,6 +53,7 @@ impl IoError {
             | IoError::Malformed { file, .. }
             | IoError::ChannelMismatch { file, .. }
             | IoError::SampleRateMismatch { file, .. }
+            | IoError::OutputIsInput { file }
             | IoError::PartialFrame { file, .. } => file,
         }
     }
@@ -73,14 +76,13 @@ impl IoError {
     pub(crate) fn from_wav_read(file: &Path, error: hound::Error) -> Self {
         let file = file.to_path_buf();
         match error {
-            hound::Error::IoError(source) => match source.kind() {
-                // A file too short to hold a RIFF header is simply not a WAV file.
-                std::io::ErrorKind::UnexpectedEof => IoError::NotWav {
-                    file,
-                    detail: "the file is shorter than a WAV header".to_string(),
-                },
-                _ => IoError::from_os(&file, source),
+            // A file too short to hold a RIFF header is simply not a WAV file (the WAV crate
+            // reports a short read with a message of its own, not as an end-of-file kind).
+            hound::Error::IoError(source) if short_read(&source) => IoError::NotWav {
+                file,
+                detail: "the file is shorter than a WAV header".to_string(),
             },
+            hound::Error::IoError(source) => IoError::from_os(&file, source),
             hound::Error::FormatError(what) if what.contains("RIFF") || what.contains("WAVE") => {
                 IoError::NotWav {
                     file,
@@ -105,6 +107,20 @@ impl IoError {
                 file,
                 detail: other.to_string(),
             },
+        }
+    }
+
+    /// Classifies an error the WAV crate reported while reading samples of `file` (its header
+    /// was fine): a short read there means the data stop before the header says they end.
+    pub(crate) fn from_wav_data(file: &Path, error: hound::Error) -> Self {
+        match error {
+            hound::Error::IoError(source) if short_read(&source) => IoError::Malformed {
+                file: file.to_path_buf(),
+                detail: "the samples stop before the end the header announces: the file is \
+                         truncated, or still being written"
+                    .to_string(),
+            },
+            other => IoError::from_wav_read(file, other),
         }
     }
 
@@ -145,6 +161,12 @@ impl fmt::Display for IoError {
                 f,
                 "{}: unsupported WAV sample format ({detail})\n  help: use 16-, 24- or 32-bit \
                  integer PCM or 32-bit float; convert 8-bit, 64-bit float or compressed files first",
+                file.display()
+            ),
+            IoError::OutputIsInput { file } => write!(
+                f,
+                "{}: this is the input file itself; writing the output there would destroy the \
+                 input while it is being read\n  help: name another output file",
                 file.display()
             ),
             IoError::Malformed { file, detail } => write!(
@@ -204,4 +226,10 @@ impl std::error::Error for IoError {
             _ => None,
         }
     }
+}
+
+/// True for the WAV crate's short-read error (or a plain end of file).
+fn short_read(source: &std::io::Error) -> bool {
+    source.kind() == std::io::ErrorKind::UnexpectedEof
+        || source.to_string().contains("Failed to read enough bytes")
 }

@@ -193,22 +193,31 @@ pub fn run_file<P: BlockProcessor>(
     } else {
         WavFormat::float32(input_format.channels, input_format.sample_rate)
     };
+    refuse_overwriting_input(input, output)?;
     let mut writer = WavBlockWriter::create(output, output_format)?;
     let mut steps = ProgressSteps::new(reader.frames_total(), sample_rate);
     let block_len = options.block_frames * input_format.channels;
     let mut block_in = vec![0.0f32; block_len];
     let mut block_out = vec![0.0f32; block_len];
-    loop {
-        let frames = reader.read_block(&mut block_in)?;
-        if frames == 0 {
-            break;
+    let mut body = || -> Result<(), IoError> {
+        loop {
+            let frames = reader.read_block(&mut block_in)?;
+            if frames == 0 {
+                return Ok(());
+            }
+            let used = frames * input_format.channels;
+            processor.process_interleaved(&block_in[..used], &mut block_out[..used]);
+            writer.write_block(&block_out[..used])?;
+            if let Some(percent) = steps.crossed(reader.frames_read()) {
+                progress(percent);
+            }
         }
-        let used = frames * input_format.channels;
-        processor.process_interleaved(&block_in[..used], &mut block_out[..used]);
-        writer.write_block(&block_out[..used])?;
-        if let Some(percent) = steps.crossed(reader.frames_read()) {
-            progress(percent);
-        }
+    };
+    if let Err(e) = body() {
+        // A half-written output would pass for a result: remove it.
+        drop(writer);
+        let _ = std::fs::remove_file(output);
+        return Err(e.into());
     }
     let written = writer.finish()?;
     Ok(FileRunSummary {
@@ -217,6 +226,21 @@ pub fn run_file<P: BlockProcessor>(
         frames: written.frames,
         clipped_samples: written.clipped_samples,
     })
+}
+
+/// Refuses an output path that is the input file itself (same file, by device and inode, so a
+/// second name or a link to it is caught too): creating the output would truncate the input.
+fn refuse_overwriting_input(input: &Path, output: &Path) -> Result<(), IoError> {
+    use std::os::unix::fs::MetadataExt;
+    let (Ok(i), Ok(o)) = (std::fs::metadata(input), std::fs::metadata(output)) else {
+        return Ok(());
+    };
+    if i.dev() == o.dev() && i.ino() == o.ino() {
+        return Err(IoError::OutputIsInput {
+            file: output.to_path_buf(),
+        });
+    }
+    Ok(())
 }
 
 /// Runs `input` through the link's own channels (the simulated link) into `output`.

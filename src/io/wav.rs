@@ -162,14 +162,14 @@ impl WavBlockReader {
         match self.format.encoding {
             SampleEncoding::Float => {
                 for sample in self.reader.samples::<f32>().take(wanted) {
-                    block[filled] = sample.map_err(|e| IoError::from_wav_read(&self.file, e))?;
+                    block[filled] = sample.map_err(|e| IoError::from_wav_data(&self.file, e))?;
                     filled += 1;
                 }
             }
             SampleEncoding::Int => {
                 let scale = self.int_scale;
                 for sample in self.reader.samples::<i32>().take(wanted) {
-                    let value = sample.map_err(|e| IoError::from_wav_read(&self.file, e))?;
+                    let value = sample.map_err(|e| IoError::from_wav_data(&self.file, e))?;
                     block[filled] = value as f32 * scale;
                     filled += 1;
                 }

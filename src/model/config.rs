@@ -67,6 +67,7 @@ mod link_table;
 #[cfg(test)]
 mod parse_tests;
 mod path_table;
+mod read_file;
 mod runtime_tables;
 mod schema;
 mod sections;
@@ -81,6 +82,8 @@ use toml::de::DeTable;
 use self::channel_owners::ChannelOwners;
 use self::link_table::read_link;
 use self::path_table::read_path;
+use self::read_file::read_config_bytes;
+pub use self::read_file::MAX_CONFIG_BYTES;
 use self::runtime_tables::read_runtime;
 use self::schema::{PATH, TOP};
 use self::tree::Ctx;
@@ -140,37 +143,14 @@ pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError
 }
 
 /// Reads the file at `path` and parses it with [`parse_link`]. A file that is missing, a
-/// directory, unreadable or not UTF-8 is a [`ConfigError`] too.
+/// directory, a pipe or device, unreadable, too large or not UTF-8 is a [`ConfigError`] too.
 pub fn load_link(path: &Path) -> Result<Link, ConfigError> {
     let fail = |kind, problem: String, help: &str| {
         let mut e = ConfigError::new(kind, problem, help);
         e.file = Some(path.to_path_buf());
         e
     };
-    if path.is_dir() {
-        return Err(fail(
-            ConfigErrorKind::IsDirectory,
-            "this is a directory, not a config file".into(),
-            "name a .toml file, e.g. configs/echo_line.toml",
-        ));
-    }
-    let bytes = std::fs::read(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => fail(
-            ConfigErrorKind::FileNotFound,
-            "no such file".into(),
-            "check the path and the current directory",
-        ),
-        std::io::ErrorKind::PermissionDenied => fail(
-            ConfigErrorKind::FileNotReadable,
-            "permission to read the file was denied".into(),
-            "make the file readable by this user",
-        ),
-        _ => fail(
-            ConfigErrorKind::FileNotReadable,
-            format!("the file could not be read: {e}"),
-            "check that the file is a readable regular file",
-        ),
-    })?;
+    let bytes = read_config_bytes(path)?;
     let text = String::from_utf8(bytes).map_err(|e| {
         let bytes = e.as_bytes();
         let valid = e.utf8_error().valid_up_to();

@@ -57,23 +57,56 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
             v
         }
     };
-    let mut grid_best = Peak {
+    // The grid compares |H|² (no square root, no logarithm per point: this loop is most of the
+    // cost of the boost cap's search); candidates are then refined in dB.
+    let power = |w: f64| {
+        let p = response_at(b, a, w).norm_sqr();
+        if p.is_nan() {
+            f64::INFINITY
+        } else {
+            p
+        }
+    };
+    let grid: Vec<f64> = (0..=points).map(|i| power(i as f64 * step)).collect();
+    let grid_best = grid.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    // Every local maximum of the grid close to the best is refined, not only the best one:
+    // a broad maximum sampled near its top and a slightly lower-looking one sampled off its
+    // top can trade places once refined.
+    let window = 10f64.powf(-CANDIDATE_WINDOW_DB / 10.0);
+    let mut candidates: Vec<(f64, usize)> = (0..=points)
+        .filter(|&i| {
+            let v = grid[i];
+            (i == 0 || v >= grid[i - 1])
+                && (i == points || v >= grid[i + 1])
+                && v >= grid_best * window
+        })
+        .map(|i| (grid[i], i))
+        .collect();
+    candidates.sort_by(|x, y| y.0.total_cmp(&x.0));
+    candidates.truncate(MAX_CANDIDATES);
+    let mut best = Peak {
         level_db: f64::NEG_INFINITY,
         omega: 0.0,
     };
-    for i in 0..=points {
+    for (_, i) in candidates {
         let w = i as f64 * step;
-        let v = level(w);
-        if v > grid_best.level_db {
-            grid_best = Peak {
-                level_db: v,
+        let candidate = refine(
+            &level,
+            Peak {
+                level_db: level(w),
                 omega: w,
-            };
+            },
+            step,
+        );
+        if candidate.level_db > best.level_db {
+            best = candidate;
         }
     }
-    let mut best = refine(&level, grid_best, step);
-    for &angle in pole_angles {
-        let w = angle.clamp(0.0, PI);
+    // Conjugate pairs and repeated roots give the same angle twice or more: one search each.
+    let mut angles: Vec<f64> = pole_angles.iter().map(|a| a.clamp(0.0, PI)).collect();
+    angles.sort_by(f64::total_cmp);
+    angles.dedup();
+    for &w in &angles {
         let candidate = refine(
             &level,
             Peak {
@@ -88,6 +121,11 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
     }
     best
 }
+
+/// Grid maxima within this many dB of the grid's best are refined.
+const CANDIDATE_WINDOW_DB: f64 = 1.0;
+/// Most grid maxima refined.
+const MAX_CANDIDATES: usize = 16;
 
 /// Golden-section refinement of a maximum in [ω − step, ω + step]; never returns less than the
 /// starting point.

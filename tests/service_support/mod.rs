@@ -3,6 +3,8 @@
 
 #![allow(dead_code)] // each test file uses its own subset
 
+pub mod recording;
+
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, ExitStatus, Stdio};
 use std::time::{Duration, Instant};

@@ -1,0 +1,265 @@
+//! Noticing that the sound devices have gone, and pacing the attempts to get them back.
+//!
+//! The control thread looks every tick at two things the audio side already counts: the
+//! engine's frame counter (it advances only while the capture callback runs) and the streams'
+//! error tallies. A device is taken as lost when the backend says so outright (device gone,
+//! stream invalidated or moved), when errors keep coming for a while without a single frame
+//! getting through, or when no frame has got through for a long time at all. The verdict is a
+//! pure function of the observations and the times given, so it is tested without a device or
+//! a clock.
+
+use std::time::{Duration, Instant};
+
+use crate::io::live::{StreamErrorCounts, StreamErrorKind, StreamErrorTally};
+
+/// No frame for this long while the devices keep reporting errors: lost.
+pub const STALL_WITH_ERRORS: Duration = Duration::from_secs(1);
+/// This many errors without a frame in between is a flood, not a hiccup…
+pub const ERROR_FLOOD: u64 = 1000;
+/// …and a flood that has lasted this long (with no frame) is a loss.
+pub const FLOOD_STALL: Duration = Duration::from_millis(200);
+/// No frame for this long, errors or not: lost (a stream that never delivers is as good as gone).
+pub const STALL_SILENT: Duration = Duration::from_secs(4);
+/// First wait before trying to open the devices again; doubled after every failed try…
+pub const BACKOFF_FIRST: Duration = Duration::from_millis(500);
+/// …up to this.
+pub const BACKOFF_MAX: Duration = Duration::from_secs(8);
+
+/// What one look at the audio side concluded.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Health {
+    Running,
+    /// The devices are gone; the text says how that was seen.
+    Lost(String),
+}
+
+/// Follows the frame counter and error tallies of one run of the streams.
+#[derive(Debug, Clone)]
+pub struct DeviceWatch {
+    frames: u64,
+    errors: StreamErrorCounts,
+    last_progress: Instant,
+    errors_since_progress: u64,
+}
+
+fn fatal(kind: Option<StreamErrorKind>) -> bool {
+    matches!(
+        kind,
+        Some(
+            StreamErrorKind::DeviceNotAvailable
+                | StreamErrorKind::StreamInvalidated
+                | StreamErrorKind::DeviceChanged
+        )
+    )
+}
+
+fn describe(direction: &str, tally: &StreamErrorTally) -> String {
+    format!("{direction}: {tally}")
+}
+
+impl DeviceWatch {
+    /// Starts watching streams that have just been opened at `now`.
+    pub fn new(now: Instant) -> Self {
+        Self {
+            frames: 0,
+            errors: StreamErrorCounts::default(),
+            last_progress: now,
+            errors_since_progress: 0,
+        }
+    }
+
+    /// Takes one look: the engine's frame count and both streams' error tallies at `now`.
+    pub fn observe(&mut self, now: Instant, frames: u64, errors: StreamErrorCounts) -> Health {
+        let new_input = errors.input.count.saturating_sub(self.errors.input.count);
+        let new_output = errors.output.count.saturating_sub(self.errors.output.count);
+        self.errors = errors;
+        if new_input > 0 && fatal(errors.input.last_kind) {
+            return Health::Lost(describe("capture device", &errors.input));
+        }
+        if new_output > 0 && fatal(errors.output.last_kind) {
+            return Health::Lost(describe("playback device", &errors.output));
+        }
+        if frames != self.frames {
+            self.frames = frames;
+            self.last_progress = now;
+            self.errors_since_progress = 0;
+            return Health::Running;
+        }
+        self.errors_since_progress += new_input + new_output;
+        let stalled = now.saturating_duration_since(self.last_progress);
+        let flood = self.errors_since_progress >= ERROR_FLOOD && stalled >= FLOOD_STALL;
+        if flood || (stalled >= STALL_WITH_ERRORS && self.errors_since_progress > 0) {
+            return Health::Lost(format!(
+                "no audio for {:.1} s while the devices report errors ({}; {})",
+                stalled.as_secs_f64(),
+                describe("capture", &errors.input),
+                describe("playback", &errors.output)
+            ));
+        }
+        if stalled >= STALL_SILENT {
+            return Health::Lost(format!(
+                "no audio for {:.1} s: the capture device delivers nothing",
+                stalled.as_secs_f64()
+            ));
+        }
+        Health::Running
+    }
+}
+
+/// Exponential back-off between attempts to reopen the devices.
+#[derive(Debug, Clone)]
+pub struct Backoff {
+    next: Duration,
+    attempts: u32,
+}
+
+impl Default for Backoff {
+    fn default() -> Self {
+        Self {
+            next: BACKOFF_FIRST,
+            attempts: 0,
+        }
+    }
+}
+
+impl Backoff {
+    /// The wait before the next attempt; each call doubles the one after, up to [`BACKOFF_MAX`].
+    pub fn next_delay(&mut self) -> Duration {
+        let delay = self.next;
+        self.next = (self.next * 2).min(BACKOFF_MAX);
+        self.attempts += 1;
+        delay
+    }
+
+    /// Attempts made so far.
+    pub fn attempts(&self) -> u32 {
+        self.attempts
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn tally(count: u64, kind: StreamErrorKind) -> StreamErrorTally {
+        StreamErrorTally {
+            count,
+            last_kind: Some(kind),
+        }
+    }
+
+    fn ms(t0: Instant, n: u64) -> Instant {
+        t0 + Duration::from_millis(n)
+    }
+
+    // Source: common practice for audio services — a device the backend reports gone is gone.
+    #[test]
+    fn a_device_reported_gone_is_lost_at_once() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        assert_eq!(
+            watch.observe(ms(t0, 20), 256, StreamErrorCounts::default()),
+            Health::Running
+        );
+        let errors = StreamErrorCounts {
+            input: tally(1, StreamErrorKind::DeviceNotAvailable),
+            output: StreamErrorTally::default(),
+        };
+        match watch.observe(ms(t0, 40), 512, errors) {
+            Health::Lost(why) => assert!(why.contains("capture device"), "{why}"),
+            Health::Running => panic!("a vanished capture device went unnoticed"),
+        }
+    }
+
+    #[test]
+    fn xruns_while_audio_flows_are_not_a_loss() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        for i in 1..200u64 {
+            let errors = StreamErrorCounts {
+                input: tally(i, StreamErrorKind::Xrun),
+                output: tally(i, StreamErrorKind::Xrun),
+            };
+            assert_eq!(
+                watch.observe(ms(t0, 20 * i), 256 * i, errors),
+                Health::Running
+            );
+        }
+    }
+
+    #[test]
+    fn errors_without_progress_for_a_second_are_a_loss() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        assert_eq!(
+            watch.observe(ms(t0, 20), 256, StreamErrorCounts::default()),
+            Health::Running
+        );
+        let mut verdict = Health::Running;
+        let mut at = 0;
+        for i in 2..200u64 {
+            let errors = StreamErrorCounts {
+                input: tally(i, StreamErrorKind::Backend),
+                output: StreamErrorTally::default(),
+            };
+            verdict = watch.observe(ms(t0, 20 * i), 256, errors);
+            if verdict != Health::Running {
+                at = 20 * i;
+                break;
+            }
+        }
+        match verdict {
+            Health::Lost(why) => assert!(why.contains("while the devices report errors"), "{why}"),
+            Health::Running => panic!("a stalled, erroring stream went unnoticed"),
+        }
+        // Declared once the stall reached STALL_WITH_ERRORS after the last frame (at 20 ms).
+        assert_eq!(at, 20 + STALL_WITH_ERRORS.as_millis() as u64);
+    }
+
+    // A backend whose server has gone (the PulseAudio plugin, for one) reports an error per
+    // poll, tens of thousands a second: that is a loss well before the one-second rule.
+    #[test]
+    fn an_error_flood_without_frames_is_a_loss_within_its_short_wait() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        assert_eq!(
+            watch.observe(ms(t0, 20), 256, StreamErrorCounts::default()),
+            Health::Running
+        );
+        let flood = |n: u64| StreamErrorCounts {
+            input: tally(n, StreamErrorKind::Backend),
+            output: tally(n, StreamErrorKind::Backend),
+        };
+        let stall_ms = FLOOD_STALL.as_millis() as u64;
+        assert_eq!(
+            watch.observe(ms(t0, 20 + stall_ms - 20), 256, flood(5000)),
+            Health::Running
+        );
+        assert!(matches!(
+            watch.observe(ms(t0, 20 + stall_ms), 256, flood(6000)),
+            Health::Lost(_)
+        ));
+    }
+
+    #[test]
+    fn a_silent_stall_is_a_loss_only_after_the_long_wait() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        let quiet = StreamErrorCounts::default();
+        let limit = STALL_SILENT.as_millis() as u64;
+        assert_eq!(watch.observe(ms(t0, limit - 20), 0, quiet), Health::Running);
+        assert!(matches!(
+            watch.observe(ms(t0, limit), 0, quiet),
+            Health::Lost(_)
+        ));
+    }
+
+    // Source: common practice (exponential back-off with a ceiling).
+    #[test]
+    fn backoff_doubles_up_to_its_ceiling() {
+        let mut b = Backoff::default();
+        let delays: Vec<u64> = (0..7).map(|_| b.next_delay().as_millis() as u64).collect();
+        assert_eq!(delays, vec![500, 1000, 2000, 4000, 8000, 8000, 8000]);
+        assert_eq!(b.attempts(), 7);
+    }
+}
