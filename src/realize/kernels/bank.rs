@@ -204,12 +204,19 @@ impl ChannelBank {
                 match unit {
                     Unit::Alone { channel, filter } => {
                         let (xin, yout) = (&mut self.alone_in[..n], &mut self.alone_out[..n]);
-                        for (v, frame) in xin.iter_mut().zip(x.chunks_exact(channels)) {
-                            *v = f64::from(frame[*channel]);
+                        // Strided walks over the channel: no per-frame index checks.
+                        for (v, s) in xin
+                            .iter_mut()
+                            .zip(x.iter().skip(*channel).step_by(channels))
+                        {
+                            *v = f64::from(*s);
                         }
                         process_inline::<A>(filter, xin, yout);
-                        for (v, frame) in yout.iter().zip(y.chunks_exact_mut(channels)) {
-                            frame[*channel] = *v;
+                        for (v, d) in yout
+                            .iter()
+                            .zip(y.iter_mut().skip(*channel).step_by(channels))
+                        {
+                            *d = *v;
                         }
                     }
                     Unit::Four {
