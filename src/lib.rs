@@ -11,6 +11,7 @@ pub mod control;
 pub mod design;
 pub mod engine;
 pub mod io;
+pub mod measure;
 pub mod model;
 pub mod numeric;
 pub mod pipeline;

@@ -1,5 +1,7 @@
 //! The `redress` command: parses arguments, calls the library, prints. No signal processing here.
 
+mod measure_commands;
+
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -59,6 +61,9 @@ enum Command {
         /// Print the report as JSON (schema in the README) instead of text.
         #[arg(long)]
         json: bool,
+        /// Also write pictures (SVG) of every path and an index.html into this folder.
+        #[arg(long, value_name = "DIR")]
+        plot: Option<PathBuf>,
     },
     /// Equalize a WAV file with the link's inverse, block by block.
     #[command(after_help = EXIT_CODES)]
@@ -146,12 +151,14 @@ enum Command {
     },
     /// List the audio devices and the configurations they support.
     Devices,
+    #[command(flatten)]
+    Measure(measure_commands::MeasureCommand),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let code = match cli.command {
-        Command::Check { config, json } => check(&config, json),
+        Command::Check { config, json, plot } => check(&config, json, plot.as_deref()),
         Command::Apply {
             config,
             input,
@@ -206,6 +213,7 @@ fn main() -> ExitCode {
         ),
         Command::Status { json, socket } => status(json, socket),
         Command::Devices => devices(),
+        Command::Measure(command) => measure_commands::run(command),
     };
     ExitCode::from(code)
 }
@@ -218,17 +226,24 @@ fn load(config: &Path) -> Result<Link, u8> {
     })
 }
 
-fn check(config: &Path, json: bool) -> u8 {
+fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
     let link = match load(config) {
         Ok(link) => link,
         Err(code) => return code,
     };
     let plan = plan_link(&link);
     let report = link_report(&plan, link.source.as_deref());
+    let text = render_text(&report);
     if json {
         println!("{}", render_json(&report));
     } else {
-        print!("{}", render_text(&report));
+        print!("{text}");
+    }
+    if let Some(dir) = plot {
+        let code = measure_commands::write_pictures(&plan, dir, &text, json);
+        if code != exit::OK {
+            return code;
+        }
     }
     if plan.is_runnable() {
         exit::OK

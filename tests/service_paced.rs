@@ -35,6 +35,9 @@ fn frame_matches(live: &[f32], l: usize, reference: &[f32], r: usize) -> bool {
     (0..CHANNELS).all(|c| (live[l * CHANNELS + c] - reference[r * CHANNELS + c]).abs() <= TOLERANCE)
 }
 
+/// Longest gap followed when the recording leaves the reference (one second).
+const SEARCH_FRAMES: usize = 48_000;
+
 /// Frames the device path added (silence) or lost, as found in the recording.
 #[derive(Default)]
 struct Gaps {
@@ -72,10 +75,11 @@ fn walk(
         }
         // Silence the playback side inserted, then possibly frames the capture side dropped
         // while playback was stalled.
-        let gap = (0..4096)
+        let gap = (0..SEARCH_FRAMES)
             .take_while(|&k| offset + n + k < live_frames && silent(offset + n + k))
             .count();
-        let Some(skip) = (0..4096.min(offset + gap + 1)).find(|&k| resumes(offset + gap - k, n))
+        let Some(skip) =
+            (0..SEARCH_FRAMES.min(offset + gap + 1)).find(|&k| resumes(offset + gap - k, n))
         else {
             let show = |v: &[f32], f: usize| v[f * CHANNELS..(f + 1) * CHANNELS].to_vec();
             panic!(
@@ -231,7 +235,7 @@ fn paced_run_with_bad_and_good_reloads() {
             && (0..8).all(|k| frame_matches(&live, o + after_from + k, &expected_b, after_from + k))
     };
     // Nearest alignment first: unchanged, then later (silence inserted), then earlier (dropped).
-    let realigned = (0..=8192usize)
+    let realigned = (0..=SEARCH_FRAMES)
         .flat_map(|k| [Some(offset_at_swap + k), offset_at_swap.checked_sub(k)])
         .flatten()
         .find(|&o| b_at(o))

@@ -1,7 +1,8 @@
 #!/bin/sh
 # Regenerates the reference fixtures in a temporary folder and compares them byte for byte with
-# the committed ones: tests/fixtures/reference (make_fixtures.py) and tests/fixtures/substitutes
-# (make_substitute_fixtures.py). Exits non-zero when either differs; both are always checked.
+# the committed ones: tests/fixtures/reference (make_fixtures.py), tests/fixtures/substitutes
+# (make_substitute_fixtures.py) and tests/fixtures/measure (make_measure_fixtures.py). Exits
+# non-zero when any set differs; every set is always checked.
 #
 # The pinned numpy/scipy live in a virtual environment: REDRESS_REFERENCE_VENV names it
 # (default: .venv-reference at the repository root). It is created and filled from
@@ -24,4 +25,5 @@ export OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1
 status=0
 "$venv/bin/python" "$here/make_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_substitute_fixtures.py" --check || status=1
+"$venv/bin/python" "$here/make_measure_fixtures.py" --check || status=1
 exit "$status"

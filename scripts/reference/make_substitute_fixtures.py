@@ -219,6 +219,70 @@ def clamp(roots, rho):
     return [rho * z / abs(z) if abs(z) > rho else z for z in roots]
 
 
+# redress::design::MAX_RELAXED_GROUPS and RELAX_SWEEPS: the second pass of the cap.
+MAX_RELAXED_GROUPS = 8
+RELAX_SWEEPS = 3
+
+
+def moved_groups(roots, rho):
+    """Zeros beyond ρ as conjugate pairs (or single real zeros), closest to the circle first."""
+    taken = [False] * len(roots)
+    groups = []
+    for i, z in enumerate(roots):
+        if taken[i] or abs(z) <= rho:
+            continue
+        taken[i] = True
+        group = [i]
+        if z.imag != 0.0:
+            for j, w in enumerate(roots):
+                if not taken[j] and abs(w - z.conjugate()) <= 1e-12 * max(abs(z), 1.0):
+                    taken[j] = True
+                    group.append(j)
+                    break
+        groups.append(group)
+    groups.sort(key=lambda g: (-abs(roots[g[0]]), abs(np.angle(roots[g[0]]))))
+    return groups
+
+
+def relax(a, gain, roots, rho, cap_db):
+    """The cap's second pass, rebuilt from its written rule: each group the common clamp moved
+    is let back out on its own, closest to the circle first, as far as the cap allows; repeated
+    until nothing moves by more than 1e-12."""
+    target = cap_db - CAP_MARGIN_DB
+    placed = clamp(roots, rho)
+    groups = moved_groups(roots, rho)
+    if len(groups) > MAX_RELAXED_GROUPS:
+        return placed
+
+    def at(group, r):
+        trial = list(placed)
+        for i in group:
+            trial[i] = r * roots[i] / abs(roots[i])
+        return peak(a, poly_from_roots(gain, trial))[0]
+
+    for _ in range(RELAX_SWEEPS):
+        largest_step = 0.0
+        for group in groups:
+            original = abs(roots[group[0]])
+            current = abs(placed[group[0]])
+            lo, hi = current, original
+            if at(group, original) <= target:
+                lo = original
+            else:
+                while hi - lo > RADIUS_BRACKET:
+                    mid = 0.5 * (lo + hi)
+                    if at(group, mid) <= target:
+                        lo = mid
+                    else:
+                        hi = mid
+            largest_step = max(largest_step, lo - current)
+            for i in group:
+                placed[i] = roots[i] if lo >= original else lo * roots[i] / abs(roots[i])
+        if largest_step <= 1e-12:
+            break
+    return placed
+
+
 def cap_radius(a, gain, roots, cap_db):
     """Largest ρ with peak(A / (gain·Π(1 − clamp(z, ρ)z⁻¹))) ≤ cap − margin: our own bisection."""
     target = cap_db - CAP_MARGIN_DB
@@ -318,7 +382,8 @@ def reflection_fixture(numerator, b_min, zeros):
 def default_policy_fixture(a, numerator, grid):
     """Exact when every zero is inside and the boost is under the cap; otherwise reflect the
     outside zeros, then clamp every zero beyond ρ to radius ρ for the largest ρ that keeps the
-    inverse's peak at or under the cap (redress::design::cap_boost's documented rule)."""
+    inverse's peak at or under the cap, then let each moved group back out as far as the cap
+    allows (redress::design::cap_boost's documented rule)."""
     b_min, zeros, outside = reflected(numerator)
     on_circle = any(abs(abs(z) - 1.0) <= CIRCLE_TOLERANCE for z in zeros)
     if outside == 0 and not on_circle and peak(a, numerator)[0] <= DEFAULT_CAP_DB:
@@ -329,11 +394,12 @@ def default_policy_fixture(a, numerator, grid):
             radius, b_capped = None, b_min
         else:
             radius = cap_radius(a, b_min[0], zeros, DEFAULT_CAP_DB)
-            b_capped = poly_from_roots(b_min[0], clamp(zeros, radius))
+            placed = relax(a, b_min[0], zeros, radius, DEFAULT_CAP_DB)
+            b_capped = poly_from_roots(b_min[0], placed)
     level, omega = peak(a, b_capped)
     assert level <= DEFAULT_CAP_DB + 1e-9
     inverse = np.abs(response(a, b_capped, grid))
-    moved = 0 if radius is None else sum(1 for z in zeros if abs(z) > radius)
+    moved = 0 if radius is None else sum(1 for z, p in zip(zeros, placed) if z != p)
     fixture = {
         "cap_db": DEFAULT_CAP_DB,
         "method": method,

@@ -140,6 +140,8 @@ impl EngineStats {
             }
             2f64.powf(TIME_BUCKETS as f64 / 4.0)
         };
+        // Bucket upper edges can overshoot the exact maximum: never report a percentile above it.
+        let max_us = load(&self.callback_time_max_ns) as f64 / 1000.0;
         StatsSnapshot {
             frames: load(&self.frames),
             clipped_samples: load(&self.clipped_samples),
@@ -161,9 +163,9 @@ impl EngineStats {
             output_peak_dbfs: (0..channels)
                 .map(|c| dbfs(self.output_peak[c].swap(0, Ordering::Relaxed)))
                 .collect(),
-            callback_p50_us: percentile(0.5),
-            callback_p99_us: percentile(0.99),
-            callback_max_us: load(&self.callback_time_max_ns) as f64 / 1000.0,
+            callback_p50_us: percentile(0.5).min(max_us),
+            callback_p99_us: percentile(0.99).min(max_us),
+            callback_max_us: max_us,
         }
     }
 }

@@ -57,8 +57,8 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
             v
         }
     };
-    // The grid compares |H|² (no square root, no logarithm per point: this loop is most of the
-    // cost of the boost cap's search); the winner's level is then taken in dB as before.
+    // The grid holds |H|² (no square root, no logarithm per point: this loop is most of the
+    // cost of the boost cap's search); levels in dB are taken only at the grid's local maxima.
     let power = |w: f64| {
         let p = response_at(b, a, w).norm_sqr();
         if p.is_nan() {
@@ -67,23 +67,44 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
             p
         }
     };
-    let (mut best_power, mut best_w) = (f64::NEG_INFINITY, 0.0);
-    for i in 0..=points {
-        let w = i as f64 * step;
-        let p = power(w);
-        if p > best_power {
-            (best_power, best_w) = (p, w);
+    let grid: Vec<f64> = (0..=points).map(|i| power(i as f64 * step)).collect();
+    let peaks: Vec<(f64, usize)> = (0..=points)
+        .filter(|&i| {
+            let v = grid[i];
+            (i == 0 || v >= grid[i - 1]) && (i == points || v >= grid[i + 1])
+        })
+        .map(|i| (level(i as f64 * step), i))
+        .collect();
+    let grid_best = peaks
+        .iter()
+        .map(|p| p.0)
+        .fold(f64::NEG_INFINITY, f64::max);
+    // Every local maximum of the grid close to the best is refined, not only the best one:
+    // a broad maximum sampled near its top and a slightly lower-looking one sampled off its
+    // top can trade places once refined.
+    let mut candidates: Vec<(f64, usize)> = peaks
+        .into_iter()
+        .filter(|&(v, _)| v >= grid_best - CANDIDATE_WINDOW_DB)
+        .collect();
+    candidates.sort_by(|x, y| y.0.total_cmp(&x.0));
+    candidates.truncate(MAX_CANDIDATES);
+    let mut best = Peak {
+        level_db: f64::NEG_INFINITY,
+        omega: 0.0,
+    };
+    for (v, i) in candidates {
+        let candidate = refine(
+            &level,
+            Peak {
+                level_db: v,
+                omega: i as f64 * step,
+            },
+            step,
+        );
+        if candidate.level_db > best.level_db {
+            best = candidate;
         }
     }
-    let grid_best = Peak {
-        level_db: if best_power == f64::NEG_INFINITY {
-            f64::NEG_INFINITY
-        } else {
-            level(best_w)
-        },
-        omega: best_w,
-    };
-    let mut best = refine(&level, grid_best, step);
     // Conjugate pairs and repeated roots give the same angle twice or more: one search each.
     let mut angles: Vec<f64> = pole_angles.iter().map(|a| a.clamp(0.0, PI)).collect();
     angles.sort_by(f64::total_cmp);
@@ -103,6 +124,11 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
     }
     best
 }
+
+/// Grid maxima within this many dB of the grid's best are refined.
+const CANDIDATE_WINDOW_DB: f64 = 1.0;
+/// Most grid maxima refined.
+const MAX_CANDIDATES: usize = 16;
 
 /// Golden-section refinement of a maximum in [ω − step, ω + step]; never returns less than the
 /// starting point.

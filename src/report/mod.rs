@@ -6,6 +6,7 @@ mod build;
 mod difference_equation;
 mod json;
 mod numbers;
+pub mod pictures;
 pub mod schema;
 mod text;
 

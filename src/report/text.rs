@@ -339,12 +339,19 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
     }
     if let Some(cap) = &inverse.boost_cap {
         let mut what = format!("{} dB", fixed(cap.cap_db, 1));
-        if let Some(radius) = cap.radius_limit {
+        if cap.radius_limit.is_some() && !cap.moved_zeros.is_empty() {
+            let radii = cap.moved_zeros.iter().map(|m| m.to_re.hypot(m.to_im));
+            let low = radii.clone().fold(f64::INFINITY, f64::min);
+            let high = radii.fold(0.0, f64::max);
+            let to = if high - low <= 1e-12 {
+                format!("|z| = {}", significant(low))
+            } else {
+                format!("|z| from {} to {}", significant(low), significant(high))
+            };
             what.push_str(&format!(
-                ": {} zero{} pulled in to |z| = {}",
+                ": {} zero{} pulled in to {to}",
                 cap.moved_zeros.len(),
                 if cap.moved_zeros.len() == 1 { "" } else { "s" },
-                significant(radius)
             ));
         }
         if cap.level_reduction_db > 0.0 {

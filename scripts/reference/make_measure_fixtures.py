@@ -1,0 +1,164 @@
+#!/usr/bin/env python3
+"""Writes the reference fixtures tests/measure_identify.rs reads: known channels whose impulse
+and frequency responses come from scipy.signal, for checking what redress identifies from
+synthetic recordings of them.
+
+Every response number comes from scipy (versions pinned in requirements.txt and recorded in each
+file), never from redress. The channels are invented links of our own.
+
+For each channel: b, a, the sample rate, the orders an IIR fit should use, the impulse response
+(scipy.signal.lfilter on a unit impulse) and the frequency response at fixed frequencies in Hz
+(scipy.signal.freqz with fs), as real and imaginary parts.
+
+Usage:
+  make_measure_fixtures.py [--out DIR]   write fixtures (default: tests/fixtures/measure)
+  make_measure_fixtures.py --check       regenerate into a temporary folder and compare byte for
+                                         byte with the committed files; exit 1 on any difference
+"""
+
+import argparse
+import filecmp
+import json
+import os
+import sys
+import tempfile
+
+import numpy as np
+import scipy
+import scipy.signal
+
+PINNED_NUMPY = "2.4.6"
+PINNED_SCIPY = "1.17.1"
+
+REPO = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
+DEFAULT_OUT = os.path.join(REPO, "tests", "fixtures", "measure")
+
+IMPULSE_LENGTH = 128
+# Frequencies (Hz) the response is compared at: log-spaced over most of the band.
+FREQUENCY_POINTS = 40
+
+
+def channels():
+    """(name, scenario, sample rate, b, a, numerator order, denominator order).
+
+    The orders are those of the channel after its bulk delay (leading zero taps of b): the
+    identification starts its model at the response's onset."""
+    return [
+        (
+            "chapel_feed_fir",
+            "copper pair from the hillside chapel desk to the bell-tower horn amplifier: two "
+            "samples of converter latency and a short treble loss",
+            16000.0,
+            [0.0, 0.0, 0.82, -0.31, 0.12, 0.05],
+            [1.0],
+            3,
+            0,
+        ),
+        (
+            "quarry_hop_ringing",
+            "wireless hop across the quarry whose receiver filter rings: a resonant pole pair "
+            "at radius 0.63",
+            16000.0,
+            [0.6, 0.25, -0.1],
+            [1.0, -0.9, 0.4],
+            2,
+            2,
+        ),
+        (
+            "ferry_ramp_intercom",
+            "intercom line down the ferry ramp: a slow pole and a zero pair near 5 kHz",
+            16000.0,
+            [0.5, 0.0, 0.405],
+            [1.0, -0.7],
+            2,
+            1,
+        ),
+    ]
+
+
+def fixture(name, scenario, fs, b, a, nb, na):
+    impulse = np.zeros(IMPULSE_LENGTH)
+    impulse[0] = 1.0
+    h = scipy.signal.lfilter(b, a, impulse)
+    freqs = np.geomspace(50.0, 0.45 * fs, FREQUENCY_POINTS)
+    _, response = scipy.signal.freqz(b, a, worN=freqs, fs=fs)
+    return {
+        "name": name,
+        "scenario": scenario,
+        "sample_rate": fs,
+        "b": [float(v) for v in b],
+        "a": [float(v) for v in a],
+        "numerator_order": nb,
+        "denominator_order": na,
+        "impulse_response": [float(v) for v in h],
+        "frequencies_hz": [float(v) for v in freqs],
+        "response_re": [float(v) for v in np.real(response)],
+        "response_im": [float(v) for v in np.imag(response)],
+        "source": {
+            "numpy": np.__version__,
+            "scipy": scipy.__version__,
+            "impulse_response": "scipy.signal.lfilter",
+            "frequency_response": "scipy.signal.freqz (worN in Hz, fs)",
+            "frequencies": "numpy.geomspace",
+        },
+    }
+
+
+def generate(out):
+    if np.__version__ != PINNED_NUMPY or scipy.__version__ != PINNED_SCIPY:
+        sys.exit(
+            f"need numpy {PINNED_NUMPY} and scipy {PINNED_SCIPY}, found numpy "
+            f"{np.__version__} and scipy {scipy.__version__}: "
+            "pip install -r scripts/reference/requirements.txt"
+        )
+    os.makedirs(out, exist_ok=True)
+    names = []
+    for entry in channels():
+        name = entry[0]
+        with open(os.path.join(out, f"{name}.json"), "w", encoding="utf-8", newline="\n") as f:
+            f.write(json.dumps(fixture(*entry), indent=1) + "\n")
+        names.append(name)
+    return names
+
+
+def check():
+    with tempfile.TemporaryDirectory() as fresh:
+        generate(fresh)
+        expected = sorted(os.listdir(fresh))
+        present = sorted(f for f in os.listdir(DEFAULT_OUT) if f.endswith(".json"))
+        problems = []
+        for f in sorted(set(expected) | set(present)):
+            if f not in present:
+                problems.append(f"missing from {DEFAULT_OUT}: {f}")
+            elif f not in expected:
+                problems.append(f"committed but no longer generated: {f}")
+            elif not filecmp.cmp(os.path.join(fresh, f), os.path.join(DEFAULT_OUT, f), shallow=False):
+                problems.append(f"differs from a fresh run: {f}")
+        for p in problems:
+            print(p, file=sys.stderr)
+        if problems:
+            print(
+                "measurement fixtures are stale: run scripts/reference/make_measure_fixtures.py "
+                "and commit",
+                file=sys.stderr,
+            )
+            return 1
+        print(f"{len(expected)} measurement fixtures match a fresh run")
+        return 0
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--out", default=DEFAULT_OUT, help="folder to write the fixtures to")
+    parser.add_argument(
+        "--check", action="store_true", help="compare a fresh run with the committed fixtures"
+    )
+    args = parser.parse_args()
+    if args.check:
+        sys.exit(check())
+    names = generate(args.out)
+    print(f"wrote {len(names)} fixtures to {args.out}")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,48 @@
+//! Measuring a link: make a stimulus, and from its recording through the link identify a
+//! channel model that the rest of redress can analyse, invert and run.
+//!
+//! stimulus (sweep or maximum-length sequence) → played and recorded elsewhere (or simulated
+//! here) → checked pair → delay by cross-correlation → FIR model by least squares (length by
+//! minimum description length), which also measures the noise → optional IIR model by
+//! Steiglitz–McBride → SNR per band and the trusted band → config text → read back, planned,
+//! and the measurement equalized with the inverse as a check.
+//!
+//! Entry: [`identify_files`] (or [`identify_signals`]); [`generate_stimulus`] for the stimulus.
+
+mod band_snr;
+mod delay;
+mod equalized_check;
+mod error;
+mod fft;
+mod fir_fit;
+mod fitted_config;
+mod identify;
+mod iir_fit;
+mod lagged_gram;
+mod mls;
+mod noise;
+mod recording_checks;
+mod simulated_recording;
+mod stimulus;
+mod summary;
+mod sweep;
+mod workflow;
+
+pub use band_snr::{band_snr, trusted_range, BandSnr, TrustedRange, TRUST_SNR_DB};
+pub use delay::{find_delay, DelayFound, MIN_PROMINENCE_DB};
+pub use equalized_check::{equalized_error, EqualizedError};
+pub use error::MeasureError;
+pub use fir_fit::{fit_fir, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS, MOST_FIR_TAPS};
+pub use fitted_config::{fitted_config, MeasurementSources};
+pub use identify::{identify, ChannelFit, Identification, IdentifySettings};
+pub use iir_fit::{fit_iir, IirFit, IirOrders, MAX_IIR_ORDER};
+pub use mls::{maximum_length_sequence, MLS_ORDERS};
+pub use noise::GaussianNoise;
+pub use recording_checks::{check_pair, CheckedPair, NamedSignal, CLIP_LEVEL, SILENCE_DBFS};
+pub use simulated_recording::{simulate_recording, simulate_recording_file, RecordingSimulation};
+pub use stimulus::{
+    generate_stimulus, Stimulus, StimulusKind, StimulusSpec, DEFAULT_LEVEL_DBFS, LEVEL_RANGE_DBFS,
+};
+pub use summary::describe_measurement;
+pub use sweep::{deconvolve_sweep, exponential_sweep, sweep_frequency_at, sweep_inverse_filter};
+pub use workflow::{identify_files, identify_signals, MeasurementOutcome};
