@@ -75,10 +75,7 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
         })
         .map(|i| (level(i as f64 * step), i))
         .collect();
-    let grid_best = peaks
-        .iter()
-        .map(|p| p.0)
-        .fold(f64::NEG_INFINITY, f64::max);
+    let grid_best = peaks.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
     // Every local maximum of the grid close to the best is refined, not only the best one:
     // a broad maximum sampled near its top and a slightly lower-looking one sampled off its
     // top can trade places once refined.
