@@ -78,8 +78,10 @@ fn walk(
         let gap = (0..SEARCH_FRAMES)
             .take_while(|&k| offset + n + k < live_frames && silent(offset + n + k))
             .count();
+        // Frames dropped by the capture side never reach the recording: after the silence the
+        // output resumes with reference frame n + skip.
         let Some(skip) =
-            (0..SEARCH_FRAMES.min(offset + gap + 1)).find(|&k| resumes(offset + gap - k, n))
+            (0..SEARCH_FRAMES.min(offset + gap + 1)).find(|&k| resumes(offset + gap - k, n + k))
         else {
             let show = |v: &[f32], f: usize| v[f * CHANNELS..(f + 1) * CHANNELS].to_vec();
             panic!(
@@ -96,6 +98,7 @@ fn walk(
         gaps.dropped += skip;
         gaps.at.push(n);
         offset = offset + gap - skip;
+        n += skip;
     }
     offset
 }

@@ -68,6 +68,10 @@ struct Service {
     /// A filter set accepted by a reload but not yet taken by the engine (its inbox was full:
     /// reloads came faster than crossfades). Replaced by a newer one; sent on a later tick.
     pending: Option<Equalizer>,
+    /// The design of a reloaded config, under way on a worker thread.
+    design: Option<std::sync::mpsc::Receiver<Result<(Link, LinkPlan), String>>>,
+    /// A HUP came while a design was under way: design again once it is done.
+    reload_again: bool,
     /// Watches the devices of the running streams for loss.
     watch: DeviceWatch,
     /// Set while the devices are lost and being reopened.
@@ -137,6 +141,8 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         started: Instant::now(),
         document,
         pending: None,
+        design: None,
+        reload_again: false,
         watch: DeviceWatch::new(Instant::now()),
         recovery: None,
         device_losses: 0,
@@ -167,8 +173,9 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
             break;
         }
         if signals.take_reload() {
-            service.reload();
+            service.request_reload();
         }
+        service.poll_design();
         service.send_pending();
         service.watch_devices();
         service.pump_events();
@@ -201,20 +208,60 @@ impl Service {
     }
 
     /// Re-reads the config; on any problem logs it and keeps the running filters.
-    fn reload(&mut self) {
+    /// A HUP: starts reading and designing the config on a worker thread, so a long design
+    /// (a high-order channel takes seconds) never stops the control loop from watching the
+    /// devices, draining the engine's queues and keeping the status fresh. A HUP that arrives
+    /// while a design is under way asks for one more, of the file as it is then.
+    fn request_reload(&mut self) {
+        if self.design.is_some() {
+            debug!("reload requested while one is being designed: one more will follow");
+            self.reload_again = true;
+            return;
+        }
         let path = self.options.config.clone();
         info!("reload requested: reading {}", path.display());
-        let link = match load_link(&path) {
-            Ok(link) => link,
-            Err(e) => return self.reject(format!("{e}")),
-        };
-        let plan = plan_link(&link);
-        if !plan.is_runnable() {
-            return self.reject(format!(
-                "the new configuration cannot run: {}",
-                plan.problems().join("; ")
-            ));
+        let (tx, rx) = std::sync::mpsc::channel();
+        let worker = path.clone();
+        let spawned = std::thread::Builder::new()
+            .name("redress-design".into())
+            .spawn(move || {
+                let _ = tx.send(design_config(&worker));
+            });
+        match spawned {
+            Ok(_) => self.design = Some(rx),
+            // No thread to be had: design here, as the loop would wait for it anyway.
+            Err(_) => {
+                let outcome = design_config(&path);
+                self.finish_reload(outcome);
+            }
         }
+    }
+
+    /// Takes a finished design, if there is one, and starts the next if another HUP came.
+    fn poll_design(&mut self) {
+        let Some(rx) = self.design.as_ref() else {
+            return;
+        };
+        let outcome = match rx.try_recv() {
+            Ok(outcome) => outcome,
+            Err(std::sync::mpsc::TryRecvError::Empty) => return,
+            Err(std::sync::mpsc::TryRecvError::Disconnected) => {
+                Err("the design of the new configuration failed unexpectedly".to_string())
+            }
+        };
+        self.design = None;
+        self.finish_reload(outcome);
+        if std::mem::take(&mut self.reload_again) {
+            self.request_reload();
+        }
+    }
+
+    /// Swaps in a designed configuration, or logs why it cannot be, keeping the running one.
+    fn finish_reload(&mut self, outcome: Result<(Link, LinkPlan), String>) {
+        let (link, plan) = match outcome {
+            Ok(designed) => designed,
+            Err(why) => return self.reject(why),
+        };
         let generation = self.generation + 1;
         let restart = self.audio.as_ref().and_then(|a| a.restart_reason(&link));
         if let Some(reason) = restart {
@@ -474,6 +521,19 @@ impl Service {
             Err(e) => warn!("could not render the status document: {e}"),
         }
     }
+}
+
+/// Reads, checks and designs the config at `path` (on the design worker thread).
+fn design_config(path: &Path) -> Result<(Link, LinkPlan), String> {
+    let link = load_link(path).map_err(|e| e.to_string())?;
+    let plan = plan_link(&link);
+    if !plan.is_runnable() {
+        return Err(format!(
+            "the new configuration cannot run: {}",
+            plan.problems().join("; ")
+        ));
+    }
+    Ok((link, plan))
 }
 
 fn display(path: &Path) -> String {

@@ -21,8 +21,11 @@ pub const CHANNELS: usize = 2;
 pub const TOLERANCE: f32 = 1e-6;
 /// Frames compared to accept an alignment or a resumption.
 const PROBE: usize = 8;
-/// Largest shift of alignment a device gap may make (frames).
+/// Largest shift of alignment a device gap may make when a transition follows it (frames)…
 const MAX_SHIFT: usize = 8192;
+/// …and when the output resumes at once: a loaded machine can stall playback for seconds while
+/// capture runs on and the ring overflows (every dropped sample counted as an overrun).
+const MAX_DROP: usize = 4 * 48_000;
 
 pub fn read_raw(path: &Path) -> Vec<f32> {
     std::fs::read(path)
@@ -191,7 +194,7 @@ pub fn walk(
         // resumes with reference frame n + k right after the silence, possibly through a
         // transition of j frames (a fade-in after the streams restarted).
         let resume = (0..=max_transition).find_map(|j| {
-            (0..MAX_SHIFT).find_map(|k| {
+            (0..if j == 0 { MAX_DROP } else { MAX_SHIFT }).find_map(|k| {
                 let o = offset + silent as isize - k as isize;
                 (0..candidates.len())
                     .find(|&c| run_matches(live, o, candidates[c], n + k + j))
