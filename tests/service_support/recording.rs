@@ -84,6 +84,10 @@ pub struct Walk {
     /// Frames matched per candidate, and the candidate running at the end.
     pub per_candidate: Vec<usize>,
     pub last_candidate: usize,
+    /// Live frame minus reference frame where the walk started and where it ended: the device
+    /// path's net shift (inserted minus dropped frames) over the stretch walked.
+    pub first_offset: isize,
+    pub last_offset: isize,
 }
 
 fn matches(live: &[f32], l: isize, reference: &[f32], r: usize) -> bool {
@@ -136,6 +140,7 @@ pub fn walk(
                 .map(|c| (offset, c))
         })
         .expect("a candidate's output appears in the recording");
+    w.first_offset = offset;
     let mut n = from;
     while n < to {
         assert!(
@@ -233,7 +238,17 @@ pub fn walk(
         n += k + j;
     }
     w.last_candidate = current;
+    w.last_offset = offset;
     w
+}
+
+/// Frames of `live[from..to]` that are silent on every channel.
+pub fn silent_frames(live: &[f32], from: usize, to: usize) -> usize {
+    live.chunks_exact(CHANNELS)
+        .take(to)
+        .skip(from)
+        .filter(|f| f.iter().all(|&v| v == 0.0))
+        .count()
 }
 
 /// Resident memory of a process (kB), from /proc.
