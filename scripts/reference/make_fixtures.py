@@ -25,20 +25,16 @@ Usage:
                                     with the committed files; exit 1 on any difference
 """
 
-import argparse
-import filecmp
 import math
 import os
-import sys
-import tempfile
 
 import numpy as np
 import scipy
 import scipy.optimize
 import scipy.signal
 
-PINNED_NUMPY = "2.4.6"
-PINNED_SCIPY = "1.17.1"
+import fixture_files
+
 
 REPO = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
 DEFAULT_OUT = os.path.join(REPO, "tests", "fixtures", "reference")
@@ -398,55 +394,11 @@ def channel_fixture(name, scenario, b, a, expected, signal):
     return fixture
 
 
-# --- Stable JSON: sorted keys, numbers in full precision (repr), short arrays on one line. ---
-
-
-def number(x):
-    if isinstance(x, (bool, np.bool_)):
-        return "true" if x else "false"
-    if isinstance(x, (int, np.integer)):
-        return str(int(x))
-    x = float(x)
-    if not math.isfinite(x):
-        raise ValueError(f"non-finite number {x} cannot go into JSON")
-    return repr(x)
-
-
-def emit(value, depth=0):
-    pad = " " * depth
-    inner = " " * (depth + 1)
-    if isinstance(value, np.ndarray):
-        value = value.tolist()
-    if isinstance(value, dict):
-        items = [
-            f'{inner}"{key}": {emit(value[key], depth + 1)}' for key in sorted(value)
-        ]
-        return "{\n" + ",\n".join(items) + "\n" + pad + "}"
-    if isinstance(value, (list, tuple)):
-        if any(isinstance(v, (list, tuple, dict, np.ndarray)) for v in value):
-            items = [inner + emit(v, depth + 1) for v in value]
-            return "[\n" + ",\n".join(items) + "\n" + pad + "]"
-        return "[" + ", ".join(emit(v, depth + 1) for v in value) + "]"
-    if isinstance(value, str):
-        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
-    return number(value)
-
-
-def write(path, value):
-    with open(path, "w", encoding="utf-8", newline="\n") as f:
-        f.write(emit(value) + "\n")
-
-
 def generate(out):
-    if np.__version__ != PINNED_NUMPY or scipy.__version__ != PINNED_SCIPY:
-        sys.exit(
-            f"need numpy {PINNED_NUMPY} and scipy {PINNED_SCIPY}, found numpy "
-            f"{np.__version__} and scipy {scipy.__version__}: "
-            "pip install -r scripts/reference/requirements.txt"
-        )
+    fixture_files.require_pinned_versions()
     os.makedirs(out, exist_ok=True)
     signal = test_signal()
-    write(
+    fixture_files.write(
         os.path.join(out, "signal.json"),
         {
             "signal": signal,
@@ -460,7 +412,7 @@ def generate(out):
     )
     names = []
     for name, scenario, b, a, expected in channels():
-        write(
+        fixture_files.write(
             os.path.join(out, f"{name}.json"),
             channel_fixture(name, scenario, b, a, expected, signal),
         )
@@ -468,44 +420,5 @@ def generate(out):
     return names
 
 
-def check():
-    committed = DEFAULT_OUT
-    with tempfile.TemporaryDirectory() as fresh:
-        generate(fresh)
-        expected = sorted(os.listdir(fresh))
-        present = sorted(f for f in os.listdir(committed) if f.endswith(".json"))
-        problems = []
-        for f in sorted(set(expected) | set(present)):
-            if f not in present:
-                problems.append(f"missing from {committed}: {f}")
-            elif f not in expected:
-                problems.append(f"committed but no longer generated: {f}")
-            elif not filecmp.cmp(os.path.join(fresh, f), os.path.join(committed, f), shallow=False):
-                problems.append(f"differs from a fresh run: {f}")
-        for p in problems:
-            print(p, file=sys.stderr)
-        if problems:
-            print(
-                "reference fixtures are stale: run scripts/reference/make_fixtures.py and commit",
-                file=sys.stderr,
-            )
-            return 1
-        print(f"{len(expected)} reference fixtures match a fresh run")
-        return 0
-
-
-def main():
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default=DEFAULT_OUT, help="folder to write the fixtures to")
-    parser.add_argument(
-        "--check", action="store_true", help="compare a fresh run with the committed fixtures"
-    )
-    args = parser.parse_args()
-    if args.check:
-        sys.exit(check())
-    names = generate(args.out)
-    print(f"wrote {len(names) + 1} fixtures to {args.out}")
-
-
 if __name__ == "__main__":
-    main()
+    fixture_files.main(__doc__, generate, DEFAULT_OUT, "reference", "make_fixtures.py")

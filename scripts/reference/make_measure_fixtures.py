@@ -16,19 +16,15 @@ Usage:
                                          byte with the committed files; exit 1 on any difference
 """
 
-import argparse
-import filecmp
 import json
 import os
-import sys
-import tempfile
 
 import numpy as np
 import scipy
 import scipy.signal
 
-PINNED_NUMPY = "2.4.6"
-PINNED_SCIPY = "1.17.1"
+import fixture_files
+
 
 REPO = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
 DEFAULT_OUT = os.path.join(REPO, "tests", "fixtures", "measure")
@@ -105,12 +101,7 @@ def fixture(name, scenario, fs, b, a, nb, na):
 
 
 def generate(out):
-    if np.__version__ != PINNED_NUMPY or scipy.__version__ != PINNED_SCIPY:
-        sys.exit(
-            f"need numpy {PINNED_NUMPY} and scipy {PINNED_SCIPY}, found numpy "
-            f"{np.__version__} and scipy {scipy.__version__}: "
-            "pip install -r scripts/reference/requirements.txt"
-        )
+    fixture_files.require_pinned_versions()
     os.makedirs(out, exist_ok=True)
     names = []
     for entry in channels():
@@ -121,44 +112,5 @@ def generate(out):
     return names
 
 
-def check():
-    with tempfile.TemporaryDirectory() as fresh:
-        generate(fresh)
-        expected = sorted(os.listdir(fresh))
-        present = sorted(f for f in os.listdir(DEFAULT_OUT) if f.endswith(".json"))
-        problems = []
-        for f in sorted(set(expected) | set(present)):
-            if f not in present:
-                problems.append(f"missing from {DEFAULT_OUT}: {f}")
-            elif f not in expected:
-                problems.append(f"committed but no longer generated: {f}")
-            elif not filecmp.cmp(os.path.join(fresh, f), os.path.join(DEFAULT_OUT, f), shallow=False):
-                problems.append(f"differs from a fresh run: {f}")
-        for p in problems:
-            print(p, file=sys.stderr)
-        if problems:
-            print(
-                "measurement fixtures are stale: run scripts/reference/make_measure_fixtures.py "
-                "and commit",
-                file=sys.stderr,
-            )
-            return 1
-        print(f"{len(expected)} measurement fixtures match a fresh run")
-        return 0
-
-
-def main():
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default=DEFAULT_OUT, help="folder to write the fixtures to")
-    parser.add_argument(
-        "--check", action="store_true", help="compare a fresh run with the committed fixtures"
-    )
-    args = parser.parse_args()
-    if args.check:
-        sys.exit(check())
-    names = generate(args.out)
-    print(f"wrote {len(names)} fixtures to {args.out}")
-
-
 if __name__ == "__main__":
-    main()
+    fixture_files.main(__doc__, generate, DEFAULT_OUT, "measurement", "make_measure_fixtures.py")

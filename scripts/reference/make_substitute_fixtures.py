@@ -33,12 +33,8 @@ Usage:
                                             difference
 """
 
-import argparse
-import filecmp
 import math
 import os
-import sys
-import tempfile
 import warnings
 
 import numpy as np
@@ -47,6 +43,7 @@ import scipy.linalg
 import scipy.optimize
 import scipy.signal
 
+import fixture_files
 import make_fixtures as common
 
 REPO = common.REPO
@@ -654,61 +651,16 @@ def least_squares_fixture():
 
 
 def generate(out):
-    if np.__version__ != common.PINNED_NUMPY or scipy.__version__ != common.PINNED_SCIPY:
-        sys.exit(
-            f"need numpy {common.PINNED_NUMPY} and scipy {common.PINNED_SCIPY}, found numpy "
-            f"{np.__version__} and scipy {scipy.__version__}: "
-            "pip install -r scripts/reference/requirements.txt"
-        )
+    fixture_files.require_pinned_versions()
     os.makedirs(out, exist_ok=True)
     names = []
     for name, scenario, b, a in channels():
-        common.write(os.path.join(out, f"{name}.json"), channel_fixture(name, scenario, b, a))
+        fixture_files.write(os.path.join(out, f"{name}.json"), channel_fixture(name, scenario, b, a))
         names.append(name)
-    common.write(os.path.join(out, "boost_cap_pairs.json"), boost_cap_fixture())
-    common.write(os.path.join(out, "least_squares_fir.json"), least_squares_fixture())
+    fixture_files.write(os.path.join(out, "boost_cap_pairs.json"), boost_cap_fixture())
+    fixture_files.write(os.path.join(out, "least_squares_fir.json"), least_squares_fixture())
     return names + ["boost_cap_pairs", "least_squares_fir"]
 
 
-def check():
-    committed = DEFAULT_OUT
-    with tempfile.TemporaryDirectory() as fresh:
-        generate(fresh)
-        expected = sorted(os.listdir(fresh))
-        present = sorted(f for f in os.listdir(committed) if f.endswith(".json"))
-        problems = []
-        for f in sorted(set(expected) | set(present)):
-            if f not in present:
-                problems.append(f"missing from {committed}: {f}")
-            elif f not in expected:
-                problems.append(f"committed but no longer generated: {f}")
-            elif not filecmp.cmp(os.path.join(fresh, f), os.path.join(committed, f), shallow=False):
-                problems.append(f"differs from a fresh run: {f}")
-        for p in problems:
-            print(p, file=sys.stderr)
-        if problems:
-            print(
-                "substitute fixtures are stale: run scripts/reference/make_substitute_fixtures.py "
-                "and commit",
-                file=sys.stderr,
-            )
-            return 1
-        print(f"{len(expected)} substitute fixtures match a fresh run")
-        return 0
-
-
-def main():
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default=DEFAULT_OUT, help="folder to write the fixtures to")
-    parser.add_argument(
-        "--check", action="store_true", help="compare a fresh run with the committed fixtures"
-    )
-    args = parser.parse_args()
-    if args.check:
-        sys.exit(check())
-    names = generate(args.out)
-    print(f"wrote {len(names)} fixtures to {args.out}")
-
-
 if __name__ == "__main__":
-    main()
+    fixture_files.main(__doc__, generate, DEFAULT_OUT, "substitute", "make_substitute_fixtures.py")
