@@ -242,6 +242,45 @@ pub fn walk(
     w
 }
 
+/// Device-path gaps the walk found, against what the service counted: the engine's own under-
+/// and overruns (samples), and the stream errors the devices reported. Frames lost inside the
+/// sound server or the device (an xrun the engine never sees as a full or empty ring) show up
+/// only as stream errors, each of which can account for at most one device period.
+#[derive(Debug)]
+pub struct GapBudget {
+    pub inserted: usize,
+    pub dropped: usize,
+    pub underrun_samples: usize,
+    pub overrun_samples: usize,
+    pub stream_errors: usize,
+    pub period_frames: usize,
+}
+
+impl GapBudget {
+    /// Frames the walk found beyond the engine's counters.
+    pub fn unexplained_by_engine(&self) -> usize {
+        self.inserted
+            .saturating_sub(self.underrun_samples / CHANNELS)
+            + self.dropped.saturating_sub(self.overrun_samples / CHANNELS)
+    }
+
+    /// Panics unless every gap is the engine's counted under- or overrun, or within what the
+    /// devices' reported errors can account for.
+    pub fn assert_accounted(&self) {
+        let beyond = self.unexplained_by_engine();
+        eprintln!(
+            "gaps beyond the engine's counters: {beyond} frames ({} device error(s) reported)",
+            self.stream_errors
+        );
+        assert!(
+            beyond <= self.stream_errors * self.period_frames,
+            "{beyond} frames lost or inserted beyond the engine's counters, and only {} device \
+             error(s) reported: {self:?}",
+            self.stream_errors
+        );
+    }
+}
+
 /// Frames of `live[from..to]` that are silent on every channel.
 pub fn silent_frames(live: &[f32], from: usize, to: usize) -> usize {
     live.chunks_exact(CHANNELS)
