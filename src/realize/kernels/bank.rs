@@ -52,14 +52,31 @@ pub struct ChannelBank {
 /// Groups of size `L` that are worth vector lanes: at least this many real channels.
 const MIN_LANES_USED: usize = 2;
 
-/// Whether channels of this shape run faster side by side in lanes than alone through their
-/// block kernel (measured with `scripts/bench/compare_scipy.sh` and `cargo bench`): a long
-/// cascade alone runs as a vectorised wavefront, which beats lanes whose per-frame chain of
-/// sections is too long for the processor to overlap frames; a long direct form vectorises
-/// over its own state. Lattices always gain from lanes.
-fn prefers_lanes(shape: LaneShape) -> bool {
+/// Whether `used` channels of this shape run faster side by side in `lanes` vector lanes than
+/// each alone through its block kernel.
+///
+/// Lattices always gain from lanes; a long direct form vectorises over its own state alone.
+/// For cascades of sections, a rough count of cycles per sample decides (FMA latency 4, two
+/// vector FMA units, as on current x86-64 cores; checked with `cargo bench --bench kernels --
+/// sections`): in lanes, a frame costs five vector operations per section on two units, shared
+/// by the `used` channels; alone, the wavefront waits on one section's recurrence (two
+/// dependent FMAs, 8 cycles) per sample, or on its own seven operations per register of
+/// sections when there are many. So 8 channels of 8 or 16 sections go in lanes, 2 channels
+/// of 8 sections go alone (10 cycles against 8).
+fn prefers_lanes(shape: LaneShape, used: usize, lanes: usize) -> bool {
     match shape {
-        LaneShape::Sections(k) => k <= 4 || detected_vector_unit() == VectorUnit::Baseline,
+        LaneShape::Sections(k) => {
+            let per_register = match detected_vector_unit() {
+                VectorUnit::Baseline => return true,
+                VectorUnit::Avx2 => 4,
+                VectorUnit::Avx512 => 8,
+            };
+            // Tenths of a cycle per sample.
+            let registers_per_frame = lanes.div_ceil(per_register);
+            let in_lanes = 25 * k * registers_per_frame / used.max(1);
+            let alone = 80.max(35 * k.div_ceil(per_register));
+            in_lanes <= alone
+        }
         LaneShape::DirectForm2T(order) => order <= 8,
         LaneShape::LatticeLadder(_) => true,
     }
@@ -75,19 +92,13 @@ impl ChannelBank {
         }
         let mut units = Vec::new();
         for (shape, members) in &by_shape {
-            if !prefers_lanes(*shape) {
-                units.extend(members.iter().map(|&c| Unit::Alone {
-                    channel: c,
-                    filter: filters[c].clone(),
-                }));
-                continue;
-            }
             let mut rest: &[usize] = members;
             while !rest.is_empty() {
                 let take = if rest.len() >= 5 { 8 } else { 4 }.min(rest.len());
                 let (group, tail) = rest.split_at(take);
                 rest = tail;
-                if group.len() < MIN_LANES_USED {
+                let lanes = if group.len() > 4 { 8 } else { 4 };
+                if group.len() < MIN_LANES_USED || !prefers_lanes(*shape, group.len(), lanes) {
                     for &c in group {
                         units.push(Unit::Alone {
                             channel: c,

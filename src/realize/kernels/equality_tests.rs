@@ -252,3 +252,70 @@ fn wavefront_covers_every_section_count() {
         "only {tested} cascades realized"
     );
 }
+
+// Source: common practice — a channel bank splits a cascade into groups of sections compiled
+// for their exact size; every split (1 … 4 sections per group, several groups) must give each
+// channel's own per-sample output, in 8-lane and 4-lane groups alike.
+#[test]
+fn lane_groups_cover_every_section_count() {
+    let mut tested = 0;
+    for pairs in 1..=17usize {
+        for channels in [3, 8] {
+            // Each channel its own cascade of `pairs` sections: poles turned a little per channel.
+            let filters: Vec<Filter> = (0..channels)
+                .filter_map(|c| {
+                    let product = |radius: f64, turn: f64, gain: f64| {
+                        (0..pairs).fold(vec![gain], |acc, i| {
+                            let r = radius + 0.3 * (i as f64 / pairs as f64);
+                            let a = turn + 0.1 * c as f64 + 2.8 * i as f64 / pairs as f64;
+                            multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
+                        })
+                    };
+                    let design =
+                        TransferFunction::new(product(0.4, 0.3, 1.2), product(0.6, 0.1, 1.0));
+                    realize(&design, Structure::Sections, CoefficientPrecision::F64)
+                        .ok()
+                        .map(|r| r.filter)
+                })
+                .collect();
+            if filters.len() != channels {
+                continue;
+            }
+            let frames = 600;
+            let planar: Vec<Vec<f64>> = (0..channels)
+                .map(|c| {
+                    signal(frames, (pairs * 31 + c) as u64)
+                        .iter()
+                        .map(|&v| f64::from(v as f32))
+                        .collect()
+                })
+                .collect();
+            let interleaved: Vec<f32> = (0..frames)
+                .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
+                .collect();
+            let mut bank = ChannelBank::new(filters.clone());
+            let mut out = vec![0.0f64; interleaved.len()];
+            for (x, y) in interleaved
+                .chunks(77 * channels)
+                .zip(out.chunks_mut(77 * channels))
+            {
+                bank.process(x, y);
+            }
+            for (c, filter) in filters.iter().enumerate() {
+                let expected = plain_run(filter, &planar[c]);
+                let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+                let worst = (0..frames).fold(0.0f64, |m, n| {
+                    m.max((out[n * channels + c] - expected[n]).abs())
+                });
+                assert!(
+                    worst <= RELATIVE_TOLERANCE * peak,
+                    "{pairs} sections, channel {c} of {channels} ({} in lanes): {worst:e} \
+                     against {peak:e}",
+                    bank.channels_in_lanes()
+                );
+            }
+            tested += 1;
+        }
+    }
+    assert!(tested > 20, "only {tested} banks realized");
+}
