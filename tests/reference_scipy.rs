@@ -9,10 +9,14 @@
 //! Each test walks every channel and collects all mismatches before failing, so one run names
 //! every channel, quantity, expected value and actual value that disagree.
 
+mod reference_support;
+
 use std::path::{Path, PathBuf};
 
 use num_complex::Complex64;
 use serde::Deserialize;
+
+use reference_support::{compare_vectors, max_abs, read_json, worst_relative, Mismatches};
 
 use redress::analysis::{analyse, ChannelAnalysis, Placement};
 use redress::design::{design_exact, DesignError, InverseDesign};
@@ -159,12 +163,6 @@ fn fixture_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/reference")
 }
 
-fn read_json<T: for<'de> Deserialize<'de>>(path: &Path) -> T {
-    let text = std::fs::read_to_string(path)
-        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
-    serde_json::from_str(&text).unwrap_or_else(|e| panic!("cannot parse {}: {e}", path.display()))
-}
-
 fn fixtures() -> Vec<Fixture> {
     CHANNELS
         .iter()
@@ -197,15 +195,7 @@ fn designed(f: &Fixture) -> Option<Result<(InverseDesign, &Inverse), String>> {
 // ---------------------------------------------------------------------------------------------
 // Helpers.
 
-/// Collects every mismatch so one failing run reports all of them.
-#[derive(Default)]
-struct Mismatches(Vec<String>);
-
 impl Mismatches {
-    fn note(&mut self, channel: &str, quantity: &str, detail: String) {
-        self.0.push(format!("{channel}: {quantity}: {detail}"));
-    }
-
     /// The analysis of `f`, or None with the failure noted.
     fn analysis(&mut self, f: &Fixture) -> Option<ChannelAnalysis> {
         analysed(f)
@@ -219,15 +209,6 @@ impl Mismatches {
         designed(f)?
             .map_err(|e| self.note(&f.channel, "design", e))
             .ok()
-    }
-
-    fn assert_none(self) {
-        assert!(
-            self.0.is_empty(),
-            "{} mismatch(es) against numpy/scipy:\n  {}",
-            self.0.len(),
-            self.0.join("\n  ")
-        );
     }
 }
 
@@ -289,51 +270,6 @@ fn placement_counts(placed: &[redress::analysis::PlacedRoot]) -> (usize, usize, 
         }
     }
     counts
-}
-
-/// Largest |x − y| relative to `scale` (floored at 1e-300 so an all-zero reference still works).
-fn worst_relative(ours: &[f64], reference: &[f64], scale: f64) -> (usize, f64) {
-    ours.iter()
-        .zip(reference)
-        .map(|(x, y)| (x - y).abs() / scale.max(1e-300))
-        .enumerate()
-        .fold(
-            (0, 0.0),
-            |best, (i, e)| if e > best.1 { (i, e) } else { best },
-        )
-}
-
-fn max_abs(x: &[f64]) -> f64 {
-    x.iter().fold(0.0, |m, v| m.max(v.abs()))
-}
-
-/// Compares two coefficient lists, relative to the reference's largest coefficient.
-fn compare_coefficients(
-    m: &mut Mismatches,
-    channel: &str,
-    quantity: &str,
-    ours: &[f64],
-    reference: &[f64],
-) {
-    if ours.len() != reference.len() {
-        m.note(
-            channel,
-            quantity,
-            format!("expected {reference:?}, got {ours:?} (lengths differ)"),
-        );
-        return;
-    }
-    let (i, e) = worst_relative(ours, reference, max_abs(reference));
-    if e > COEFFICIENT_TOLERANCE {
-        m.note(
-            channel,
-            quantity,
-            format!(
-                "[{i}] expected {}, got {} (relative error {e:.2e} > {COEFFICIENT_TOLERANCE:.0e})",
-                reference[i], ours[i]
-            ),
-        );
-    }
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -614,19 +550,21 @@ fn inverse_coefficients_match_a_over_stripped_b() {
         };
         // Source: make_fixtures.py, G = A/B′ divided by b′₀ in Python floats; the same G gives
         // scipy 1.17.1 scipy.signal.lfilter's cascade δ(n − D) in the fixture.
-        compare_coefficients(
+        compare_vectors(
             &mut m,
             &f.channel,
             "inverse b",
             &design.inverse.b,
             &reference.b,
+            COEFFICIENT_TOLERANCE,
         );
-        compare_coefficients(
+        compare_vectors(
             &mut m,
             &f.channel,
             "inverse a",
             &design.inverse.a,
             &reference.a,
+            COEFFICIENT_TOLERANCE,
         );
         if (design.gain - reference.gain).abs() > COEFFICIENT_TOLERANCE * reference.gain.abs() {
             m.note(

@@ -18,10 +18,13 @@
 //! every case, quantity, expected value and actual value that disagree.
 
 mod independent_response;
+mod reference_support;
 
 use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
+
+use reference_support::{compare_vectors, max_abs, read_json, worst_relative, Mismatches};
 
 use num_complex::Complex64;
 use redress::analysis::{analyse, ChannelAnalysis, PlacedRoot};
@@ -240,18 +243,15 @@ fn fixture_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/substitutes")
 }
 
-fn read_json<T: for<'de> Deserialize<'de>>(name: &str) -> T {
-    let path = fixture_dir().join(format!("{name}.json"));
-    let text = std::fs::read_to_string(&path)
-        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
-    serde_json::from_str(&text).unwrap_or_else(|e| panic!("cannot parse {}: {e}", path.display()))
+fn read_fixture<T: for<'de> Deserialize<'de>>(name: &str) -> T {
+    read_json(&fixture_dir().join(format!("{name}.json")))
 }
 
 fn channels() -> Vec<ChannelFixture> {
     CHANNELS
         .iter()
         .map(|name| {
-            let f: ChannelFixture = read_json(name);
+            let f: ChannelFixture = read_fixture(name);
             assert_eq!(f.channel, *name, "fixture file and channel name disagree");
             f
         })
@@ -265,93 +265,11 @@ fn transfer(f: &ChannelFixture) -> TransferFunction {
 // ---------------------------------------------------------------------------------------------
 // Helpers.
 
-/// Collects every mismatch so one failing run reports all of them.
-#[derive(Default)]
-struct Mismatches(Vec<String>);
-
 impl Mismatches {
-    fn note(&mut self, case: &str, quantity: &str, detail: String) {
-        self.0.push(format!("{case}: {quantity}: {detail}"));
-    }
-
-    /// Notes a mismatch when |ours − reference| > tolerance.
-    fn close(&mut self, case: &str, quantity: &str, ours: f64, reference: f64, tolerance: f64) {
-        let error = (ours - reference).abs();
-        if error.is_nan() || error > tolerance {
-            self.note(
-                case,
-                quantity,
-                format!("expected {reference}, got {ours} (error {error:.3e} > {tolerance:.0e})"),
-            );
-        }
-    }
-
     fn analysis(&mut self, f: &ChannelFixture) -> Option<ChannelAnalysis> {
         analyse(&transfer(f), f.circle_tolerance)
             .map_err(|e| self.note(&f.channel, "analysis", e.to_string()))
             .ok()
-    }
-
-    fn assert_none(self) {
-        assert!(
-            self.0.is_empty(),
-            "{} mismatch(es) against numpy/scipy:\n  {}",
-            self.0.len(),
-            self.0.join("\n  ")
-        );
-    }
-}
-
-/// Largest |x − y| relative to `scale`, with where it happened.
-fn worst_relative(ours: &[f64], reference: &[f64], scale: f64) -> (usize, f64) {
-    ours.iter()
-        .zip(reference)
-        .map(|(x, y)| (x - y).abs() / scale.max(1e-300))
-        .enumerate()
-        .fold((0, 0.0), |best, (i, e)| {
-            if e > best.1 || e.is_nan() {
-                (i, e)
-            } else {
-                best
-            }
-        })
-}
-
-fn max_abs(x: &[f64]) -> f64 {
-    x.iter().fold(0.0, |m, v| m.max(v.abs()))
-}
-
-/// Compares two vectors element by element, relative to the reference's largest magnitude.
-fn compare_vectors(
-    m: &mut Mismatches,
-    case: &str,
-    quantity: &str,
-    ours: &[f64],
-    reference: &[f64],
-    tolerance: f64,
-) {
-    if ours.len() != reference.len() {
-        m.note(
-            case,
-            quantity,
-            format!(
-                "expected {} values, got {} ({reference:?} vs {ours:?})",
-                reference.len(),
-                ours.len()
-            ),
-        );
-        return;
-    }
-    let (i, e) = worst_relative(ours, reference, max_abs(reference));
-    if e.is_nan() || e > tolerance {
-        m.note(
-            case,
-            quantity,
-            format!(
-                "[{i}] expected {}, got {} (relative error {e:.2e} > {tolerance:.0e})",
-                reference[i], ours[i]
-            ),
-        );
     }
 }
 
@@ -400,8 +318,8 @@ fn fixtures_come_from_the_pinned_versions() {
         .into_iter()
         .map(|f| (f.channel, f.source))
         .collect();
-    let cap: BoostCapFixture = read_json("boost_cap_pairs");
-    let fir: FirFixture = read_json("least_squares_fir");
+    let cap: BoostCapFixture = read_fixture("boost_cap_pairs");
+    let fir: FirFixture = read_fixture("least_squares_fir");
     sources.push(("boost_cap_pairs".into(), cap.source));
     sources.push(("least_squares_fir".into(), fir.source));
     for (name, source) in sources {
@@ -620,7 +538,7 @@ fn closed_form_pair_db(r: f64, omega0: f64) -> f64 {
 
 #[test]
 fn boost_cap_on_a_pair_matches_closed_form_and_dense_freqz() {
-    let fixture: BoostCapFixture = read_json("boost_cap_pairs");
+    let fixture: BoostCapFixture = read_fixture("boost_cap_pairs");
     let mut m = Mismatches::default();
     let (mut capped_cases, mut closed_form_cases) = (0, 0);
     for case in &fixture.cases {
@@ -739,7 +657,7 @@ fn boost_cap_on_a_pair_matches_closed_form_and_dense_freqz() {
 
 #[test]
 fn fir_taps_match_lstsq_and_solve_toeplitz() {
-    let fixture: FirFixture = read_json("least_squares_fir");
+    let fixture: FirFixture = read_fixture("least_squares_fir");
     let mut m = Mismatches::default();
     for case in &fixture.fixed_delay {
         let name = format!(
@@ -790,7 +708,7 @@ fn fir_taps_match_lstsq_and_solve_toeplitz() {
 
 #[test]
 fn delay_search_matches_exhaustive_lstsq() {
-    let fixture: FirFixture = read_json("least_squares_fir");
+    let fixture: FirFixture = read_fixture("least_squares_fir");
     let mut m = Mismatches::default();
     for case in &fixture.delay_search {
         let name = format!(
@@ -834,7 +752,7 @@ fn delay_search_matches_exhaustive_lstsq() {
 
 #[test]
 fn fir_policy_with_a_latency_budget_finds_the_exhaustive_best_delay() {
-    let fixture: FirFixture = read_json("least_squares_fir");
+    let fixture: FirFixture = read_fixture("least_squares_fir");
     let mut m = Mismatches::default();
     for case in &fixture.budget_search {
         let (Some(budget), Some(fs), Some(cap), Some(best_taps)) = (
