@@ -5,7 +5,7 @@ use std::time::Duration;
 
 use serde::Serialize;
 
-use crate::io::live::{record_loop, LiveError, LoopRecording, LoopRequest};
+use crate::io::live::{record_loop, DeviceRequest, LiveError, LoopRecording, LoopRequest};
 use crate::measure::{find_delay, maximum_length_sequence};
 
 /// MLS order of the test signal: 8191 samples, 0.17 s at 48 kHz.
@@ -63,11 +63,13 @@ pub struct RoundTrip {
 pub fn measure_round_trip(options: &RoundTripOptions) -> Result<RoundTrip, LiveError> {
     let signal = test_signal();
     let request = LoopRequest {
-        input: options.input_device.clone(),
-        output: options.output_device.clone(),
-        sample_rate: options.sample_rate,
-        channels: options.channels,
-        buffer_frames: options.buffer_frames,
+        devices: DeviceRequest {
+            input: options.input_device.clone(),
+            output: options.output_device.clone(),
+            sample_rate: options.sample_rate,
+            channels: options.channels,
+            buffer_frames: options.buffer_frames,
+        },
         signal: signal.clone(),
         level: LEVEL,
         settle: options.settle,

@@ -234,7 +234,8 @@ fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveErr
     Ok(())
 }
 
-fn choose_for(
+/// The stream configuration to ask `device` for, from what it offers and what `request` wants.
+pub(super) fn choose_for(
     device: &cpal::Device,
     label: &str,
     direction: Direction,

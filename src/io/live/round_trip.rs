@@ -17,19 +17,17 @@ use std::time::{Duration, Instant};
 
 use cpal::traits::{DeviceTrait, StreamTrait};
 
-use super::devices::{device_label, find_device, supported_configs};
+use super::devices::{device_label, find_device};
+use super::duplex::{choose_for, DeviceRequest};
 use super::error::{Direction, LiveError};
 use super::samples::{DeviceFormat, DeviceSample};
-use super::stream_choice::{choose_config, Choice};
+use super::stream_choice::Choice;
 
 /// What to measure with.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LoopRequest {
-    pub input: String,
-    pub output: String,
-    pub sample_rate: u32,
-    pub channels: u16,
-    pub buffer_frames: Option<u32>,
+    /// The devices, opened the way the service opens them.
+    pub devices: DeviceRequest,
     /// Test signal, one period, ±1 (scaled by `level` when played on every channel).
     pub signal: Vec<f32>,
     pub level: f32,
@@ -76,34 +74,19 @@ struct OutputLog {
 /// both streams. Allocation happens before the streams start (buffers sized for the run).
 pub fn record_loop(request: &LoopRequest) -> Result<LoopRecording, LiveError> {
     let host = cpal::default_host();
-    let input_device = find_device(&host, &request.input, Direction::Capture)?;
-    let output_device = find_device(&host, &request.output, Direction::Playback)?;
+    let devices = &request.devices;
+    let input_device = find_device(&host, &devices.input, Direction::Capture)?;
+    let output_device = find_device(&host, &devices.output, Direction::Playback)?;
     let input_label = device_label(&input_device);
     let output_label = device_label(&output_device);
-    let choose = |device: &cpal::Device, label: &str, direction: Direction| {
-        let offered = supported_configs(device, direction).map_err(|e| {
-            LiveError::backend(
-                format!("asking {direction} device `{label}` what it supports"),
-                e,
-            )
-        })?;
-        choose_config(
-            direction,
-            label,
-            &offered,
-            request.sample_rate,
-            request.channels,
-            request.buffer_frames,
-        )
-    };
-    let input_choice = choose(&input_device, &input_label, Direction::Capture)?;
-    let output_choice = choose(&output_device, &output_label, Direction::Playback)?;
+    let input_choice = choose_for(&input_device, &input_label, Direction::Capture, devices)?;
+    let output_choice = choose_for(&output_device, &output_label, Direction::Playback, devices)?;
 
     let total = request.settle
         + request.max_round_trip
-        + Duration::from_secs_f64(request.signal.len() as f64 / f64::from(request.sample_rate))
+        + Duration::from_secs_f64(request.signal.len() as f64 / f64::from(devices.sample_rate))
         + Duration::from_millis(500);
-    let frames_expected = (total.as_secs_f64() * f64::from(request.sample_rate) * 1.5) as usize;
+    let frames_expected = (total.as_secs_f64() * f64::from(devices.sample_rate) * 1.5) as usize;
     let input_log = Arc::new(Mutex::new(InputLog {
         captured: Vec::with_capacity(frames_expected),
         callbacks: Vec::with_capacity(frames_expected / 16 + 64),
@@ -115,7 +98,7 @@ pub fn record_loop(request: &LoopRequest) -> Result<LoopRecording, LiveError> {
     }));
     let armed = Arc::new(AtomicBool::new(false));
     let began = Instant::now();
-    let channels = usize::from(request.channels);
+    let channels = usize::from(devices.channels);
 
     let input_stream = build_input(&input_device, input_choice, channels, began, &input_log)
         .map_err(|e| LiveError::backend(format!("opening capture device `{input_label}`"), e))?;
