@@ -3,9 +3,10 @@
 //! is written once over [`F64Vector`] and compiled inside a `#[target_feature]` function per
 //! unit.
 //!
-//! Why intrinsics at all, when the other kernels are portable Rust: in the wavefront the
-//! compiler's own vectoriser builds the lane shifts through memory, which costs more than the
-//! arithmetic.
+//! Why intrinsics at all, when the other kernels are portable Rust: for the two kernels that
+//! use this, the compiler's own vectoriser picks the wrong dimension or the wrong moves (lane
+//! shifts through memory in the wavefront; gathers across the delay line instead of one
+//! register per delay element in the direct-form lanes), which costs more than the arithmetic.
 //!
 //! Safety: every method is `unsafe` and `#[inline(always)]`; call them only from a function
 //! compiled with the unit's features (`#[target_feature]`) after
@@ -35,6 +36,12 @@ pub trait F64Vector: Copy {
     /// # Safety
     /// See the module notes; `to` must hold at least `LANES` values (checked in debug builds).
     unsafe fn store(self, to: &mut [f64]);
+    /// # Safety
+    /// See the module notes.
+    unsafe fn add(self, other: Self) -> Self;
+    /// # Safety
+    /// See the module notes.
+    unsafe fn sub(self, other: Self) -> Self;
     /// # Safety
     /// See the module notes.
     unsafe fn mul(self, other: Self) -> Self;
@@ -82,6 +89,14 @@ impl F64Vector for __m512d {
         unsafe { _mm512_storeu_pd(to.as_mut_ptr(), self) }
     }
     #[inline(always)]
+    unsafe fn add(self, other: Self) -> Self {
+        _mm512_add_pd(self, other)
+    }
+    #[inline(always)]
+    unsafe fn sub(self, other: Self) -> Self {
+        _mm512_sub_pd(self, other)
+    }
+    #[inline(always)]
     unsafe fn mul(self, other: Self) -> Self {
         _mm512_mul_pd(self, other)
     }
@@ -125,6 +140,14 @@ impl F64Vector for __m256d {
         debug_assert!(to.len() >= Self::LANES);
         // SAFETY: the caller guarantees room for 4 values (unaligned store).
         unsafe { _mm256_storeu_pd(to.as_mut_ptr(), self) }
+    }
+    #[inline(always)]
+    unsafe fn add(self, other: Self) -> Self {
+        _mm256_add_pd(self, other)
+    }
+    #[inline(always)]
+    unsafe fn sub(self, other: Self) -> Self {
+        _mm256_sub_pd(self, other)
     }
     #[inline(always)]
     unsafe fn mul(self, other: Self) -> Self {
