@@ -10,6 +10,7 @@ use std::collections::BTreeMap;
 
 use super::super::Filter;
 use super::dispatch::{detected_vector_unit, with_widest_vectors, Arithmetic, Kernel, VectorUnit};
+use super::lane_direct_form::MAX_REGISTER_ORDER;
 use super::lane_filter::{LaneFilter, LaneShape};
 use super::mono::process_inline;
 
@@ -55,7 +56,7 @@ const MIN_LANES_USED: usize = 2;
 /// Whether `used` channels of this shape run faster side by side in `lanes` vector lanes than
 /// each alone through its block kernel.
 ///
-/// Lattices always gain from lanes; a long direct form vectorises over its own state alone.
+/// Lattices always gain from lanes; so do direct forms where their state fits registers.
 /// For cascades of sections, a rough count of cycles per sample decides (FMA latency 4, two
 /// vector FMA units, as on current x86-64 cores; checked with `cargo bench --bench kernels --
 /// sections`): in lanes, a frame costs five vector operations per section on two units, shared
@@ -77,7 +78,14 @@ fn prefers_lanes(shape: LaneShape, used: usize, lanes: usize) -> bool {
             let alone = 80.max(35 * k.div_ceil(per_register));
             in_lanes <= alone
         }
-        LaneShape::DirectForm2T(order) => order <= 8,
+        // With a vector unit, orders up to 32 run with the state of each register's worth of
+        // channels in registers (8 channels at order 16: 9× the plain path, against 1.8× for
+        // each alone; `cargo bench --bench kernels -- direct_form`). Past that, and in the
+        // portable build, the lanes keep their state in memory, which only pays at low orders.
+        LaneShape::DirectForm2T(order) => {
+            order <= 8
+                || (order <= MAX_REGISTER_ORDER && detected_vector_unit() != VectorUnit::Baseline)
+        }
         LaneShape::LatticeLadder(_) => true,
     }
 }

@@ -14,7 +14,8 @@
 //! afterwards, so callers see no change; results differ from the unflushed per-sample path
 //! only below 2.2e-308.
 //!
-//! This file holds the only `unsafe` of the kernels besides [`super::simd_wavefront`]: the
+//! This file holds the only `unsafe` of the kernels besides the intrinsics ([`super::vector`],
+//! used by [`super::simd_wavefront`] and the x86-64 copies in [`super::lane_direct_form`]): the
 //! call into a `#[target_feature]` function, made after the runtime check, and the
 //! floating-point control register.
 

@@ -15,7 +15,10 @@ use crate::model::{CoefficientPrecision, Structure, TransferFunction};
 use crate::numeric::poly::{from_roots, multiply};
 use crate::realize::{realize, Filter};
 
-use super::{process_block_f64, ChannelBank, MAX_WAVEFRONT_SECTIONS};
+use super::lane_direct_form::MAX_REGISTER_ORDER;
+use super::{
+    detected_vector_unit, process_block_f64, ChannelBank, VectorUnit, MAX_WAVEFRONT_SECTIONS,
+};
 
 const RELATIVE_TOLERANCE: f64 = 1e-12;
 
@@ -318,4 +321,86 @@ fn lane_groups_cover_every_section_count() {
         }
     }
     assert!(tested > 20, "only {tested} banks realized");
+}
+
+// Source: common practice — direct forms in lanes are compiled once per order up to
+// `MAX_REGISTER_ORDER` (state in registers) and run a general loop past it; every order,
+// odd and even, in 8-lane and 4-lane groups, must give each channel's own per-sample output.
+// Orders 16 and 32 are the ones the benchmarks time, so they must run in lanes where the CPU
+// has a vector unit.
+#[test]
+fn direct_form_lanes_cover_every_order() {
+    let vector_unit = detected_vector_unit() != VectorUnit::Baseline;
+    let mut tested = 0;
+    for order in 1..=MAX_REGISTER_ORDER + 2 {
+        for channels in [3, 8] {
+            // Each channel its own design: pole pairs turned a little per channel, plus a real
+            // pole (and zero) for odd orders.
+            let filters: Vec<Filter> = (0..channels)
+                .filter_map(|c| {
+                    let product = |radius: f64, turn: f64, gain: f64| {
+                        let pairs = order / 2;
+                        let start = if order % 2 == 1 {
+                            multiply(&[gain], &[1.0, -radius])
+                        } else {
+                            vec![gain]
+                        };
+                        (0..pairs).fold(start, |acc, i| {
+                            let r = radius + 0.3 * (i as f64 / pairs as f64);
+                            let a = turn + 0.1 * c as f64 + 2.8 * i as f64 / pairs as f64;
+                            multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
+                        })
+                    };
+                    let design =
+                        TransferFunction::new(product(0.4, 0.3, 1.2), product(0.6, 0.1, 1.0));
+                    realize(&design, Structure::DirectForm2T, CoefficientPrecision::F64)
+                        .ok()
+                        .map(|r| r.filter)
+                })
+                .collect();
+            if filters.len() != channels {
+                continue;
+            }
+            let frames = 600;
+            let planar: Vec<Vec<f64>> = (0..channels)
+                .map(|c| {
+                    signal(frames, (order * 37 + c) as u64)
+                        .iter()
+                        .map(|&v| f64::from(v as f32))
+                        .collect()
+                })
+                .collect();
+            let interleaved: Vec<f32> = (0..frames)
+                .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
+                .collect();
+            let mut bank = ChannelBank::new(filters.clone());
+            if order <= 8 || (vector_unit && order <= MAX_REGISTER_ORDER) {
+                assert_eq!(bank.channels_in_lanes(), channels, "order {order}");
+            }
+            let mut out = vec![0.0f64; interleaved.len()];
+            for (x, y) in interleaved
+                .chunks(77 * channels)
+                .zip(out.chunks_mut(77 * channels))
+            {
+                bank.process(x, y);
+            }
+            for (c, filter) in filters.iter().enumerate() {
+                let expected = plain_run(filter, &planar[c]);
+                let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+                let worst = (0..frames).fold(0.0f64, |m, n| {
+                    m.max((out[n * channels + c] - expected[n]).abs())
+                });
+                assert!(
+                    worst <= RELATIVE_TOLERANCE * peak,
+                    "order {order}, channel {c} of {channels} ({} in lanes): {worst:e} \
+                     against {peak:e}",
+                    bank.channels_in_lanes()
+                );
+            }
+            if order == 16 || order == 32 {
+                tested += 1;
+            }
+        }
+    }
+    assert_eq!(tested, 4, "orders 16 and 32 must realize in direct form");
 }

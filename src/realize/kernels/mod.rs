@@ -24,6 +24,7 @@ mod lattice_block;
 mod mono;
 mod sections_wavefront;
 mod simd_wavefront;
+mod vector;
 
 #[cfg(test)]
 mod equality_tests;

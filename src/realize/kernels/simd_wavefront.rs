@@ -13,17 +13,21 @@
 //! operation rounds once where the plain code rounds twice, so the output differs from the
 //! per-sample path by rounding only (the equality tests bound it at 1e-12 of the peak).
 //!
+//! Written once over [`F64Vector`] (the register type and its lane shift are the only
+//! differences between the units) and compiled inside one `#[target_feature]` function per unit.
+//!
 //! Safety: the functions are `#[target_feature]` and `unsafe`: call them only after
 //! [`super::dispatch::detected_vector_unit`] has reported the unit. Memory is touched only
-//! through slices and fixed arrays (unaligned loads and stores on arrays of the right length).
+//! through slices and fixed arrays (unaligned loads and stores of whole registers inside them).
 
 #![cfg(target_arch = "x86_64")]
 
-use std::arch::x86_64::*;
+use std::arch::x86_64::{__m256d, __m512d};
 
 use super::super::SectionCascade;
+use super::vector::{F64Vector, MAX_LANES};
 
-/// Coefficients of up to `8·V` (AVX-512) or `4·V` (AVX2) sections as flat lane arrays, with
+/// Coefficients of up to `N` sections (the registers' lanes) as flat lane arrays, with
 /// pass-through sections past the real ones.
 struct Flat<const N: usize> {
     b0: [f64; N],
@@ -86,77 +90,7 @@ pub unsafe fn wavefront_avx512<const V: usize, const N: usize>(
     input: &[f64],
     output: &mut [f64],
 ) {
-    debug_assert_eq!(N, 8 * V);
-    let n = input.len().min(output.len());
-    let sections = cascade.section_count();
-    if n == 0 || sections == 0 || sections > N {
-        return;
-    }
-    let mut flat = Flat::<N>::load(cascade);
-    let load = |a: &[f64; N], j: usize| unsafe { _mm512_loadu_pd(a.as_ptr().add(8 * j)) };
-    let b0: [__m512d; V] = std::array::from_fn(|j| load(&flat.b0, j));
-    let b1: [__m512d; V] = std::array::from_fn(|j| load(&flat.b1, j));
-    let b2: [__m512d; V] = std::array::from_fn(|j| load(&flat.b2, j));
-    let a1: [__m512d; V] = std::array::from_fn(|j| load(&flat.a1, j));
-    let a2: [__m512d; V] = std::array::from_fn(|j| load(&flat.a2, j));
-    let mut s0: [__m512d; V] = std::array::from_fn(|j| load(&flat.s0, j));
-    let mut s1: [__m512d; V] = std::array::from_fn(|j| load(&flat.s1, j));
-    let mut y: [__m512d; V] = [_mm512_setzero_pd(); V];
-    let gain = cascade.gain();
-    let last = sections - 1;
-    let (out_reg, out_lane) = (last / 8, last % 8);
-    let mut lane_buf = [0.0f64; 8];
-
-    // One step; `busy` = None when every lane is busy, else the lanes that are.
-    let (input, output) = (&input[..n], &mut output[..n]);
-    let steps = n + last;
-    for t in 0..steps {
-        let x = if t < n { gain * input[t] } else { 0.0 };
-        let first = (t + 1).saturating_sub(n);
-        let top = t.min(last);
-        let busy = if first == 0 && top == last {
-            None
-        } else {
-            Some(busy_bits(first, top))
-        };
-        // Shift every output one lane up; the new input enters lane 0.
-        let mut below = _mm512_set1_pd(x);
-        for j in 0..V {
-            let v = _mm512_castsi512_pd(_mm512_alignr_epi64::<7>(
-                _mm512_castpd_si512(y[j]),
-                _mm512_castpd_si512(below),
-            ));
-            below = y[j];
-            let out = _mm512_fmadd_pd(b0[j], v, s0[j]);
-            let n0 = _mm512_fnmadd_pd(a1[j], out, _mm512_fmadd_pd(b1[j], v, s1[j]));
-            let n1 = _mm512_fnmadd_pd(a2[j], out, _mm512_mul_pd(b2[j], v));
-            match busy {
-                None => {
-                    s0[j] = n0;
-                    s1[j] = n1;
-                }
-                Some(bits) => {
-                    let m = (bits >> (8 * j)) as u8;
-                    s0[j] = _mm512_mask_blend_pd(m, s0[j], n0);
-                    s1[j] = _mm512_mask_blend_pd(m, s1[j], n1);
-                }
-            }
-            y[j] = out;
-        }
-        if t >= last {
-            // SAFETY: lane_buf holds exactly 8 f64.
-            unsafe { _mm512_storeu_pd(lane_buf.as_mut_ptr(), y[out_reg]) };
-            output[t - last] = lane_buf[out_lane];
-        }
-    }
-    for j in 0..V {
-        // SAFETY: each array holds N = 8·V f64; register j covers 8j .. 8j + 8.
-        unsafe {
-            _mm512_storeu_pd(flat.s0.as_mut_ptr().add(8 * j), s0[j]);
-            _mm512_storeu_pd(flat.s1.as_mut_ptr().add(8 * j), s1[j]);
-        }
-    }
-    flat.store(cascade);
+    wavefront::<__m512d, V, N>(cascade, input, output)
 }
 
 /// AVX2 wavefront over `V` registers (up to 4·V sections). `N` must be 4·V.
@@ -169,34 +103,41 @@ pub unsafe fn wavefront_avx2<const V: usize, const N: usize>(
     input: &[f64],
     output: &mut [f64],
 ) {
-    debug_assert_eq!(N, 4 * V);
+    wavefront::<__m256d, V, N>(cascade, input, output)
+}
+
+/// The wavefront over `R` registers of type `W` (up to `N` = `R`·`W::LANES` sections).
+///
+/// # Safety
+/// Only inside a function compiled for `W`'s unit, after detection (see [`F64Vector`]).
+#[inline(always)]
+unsafe fn wavefront<W: F64Vector, const R: usize, const N: usize>(
+    cascade: &mut SectionCascade,
+    input: &[f64],
+    output: &mut [f64],
+) {
+    debug_assert_eq!(N, R * W::LANES);
     let n = input.len().min(output.len());
     let sections = cascade.section_count();
-    if n == 0 || sections == 0 || sections > N {
+    if n == 0 || sections == 0 || sections > N || N != R * W::LANES {
         return;
     }
+    let lanes = W::LANES;
     let mut flat = Flat::<N>::load(cascade);
-    let load = |a: &[f64; N], j: usize| unsafe { _mm256_loadu_pd(a.as_ptr().add(4 * j)) };
-    let b0: [__m256d; V] = std::array::from_fn(|j| load(&flat.b0, j));
-    let b1: [__m256d; V] = std::array::from_fn(|j| load(&flat.b1, j));
-    let b2: [__m256d; V] = std::array::from_fn(|j| load(&flat.b2, j));
-    let a1: [__m256d; V] = std::array::from_fn(|j| load(&flat.a1, j));
-    let a2: [__m256d; V] = std::array::from_fn(|j| load(&flat.a2, j));
-    let mut s0: [__m256d; V] = std::array::from_fn(|j| load(&flat.s0, j));
-    let mut s1: [__m256d; V] = std::array::from_fn(|j| load(&flat.s1, j));
-    let mut y: [__m256d; V] = [_mm256_setzero_pd(); V];
+    // Register j covers sections lanes·j … lanes·j + lanes − 1 (N = R·lanes, checked above).
+    let load = |a: &[f64; N], j: usize| W::load(&a[lanes * j..]);
+    let b0: [W; R] = std::array::from_fn(|j| load(&flat.b0, j));
+    let b1: [W; R] = std::array::from_fn(|j| load(&flat.b1, j));
+    let b2: [W; R] = std::array::from_fn(|j| load(&flat.b2, j));
+    let a1: [W; R] = std::array::from_fn(|j| load(&flat.a1, j));
+    let a2: [W; R] = std::array::from_fn(|j| load(&flat.a2, j));
+    let mut s0: [W; R] = std::array::from_fn(|j| load(&flat.s0, j));
+    let mut s1: [W; R] = std::array::from_fn(|j| load(&flat.s1, j));
+    let mut y: [W; R] = [W::splat(0.0); R];
     let gain = cascade.gain();
     let last = sections - 1;
-    let (out_reg, out_lane) = (last / 4, last % 4);
-    let mut lane_buf = [0.0f64; 4];
-    let lane_mask = |bits: u64| {
-        _mm256_castsi256_pd(_mm256_set_epi64x(
-            -(((bits >> 3) & 1) as i64),
-            -(((bits >> 2) & 1) as i64),
-            -(((bits >> 1) & 1) as i64),
-            -((bits & 1) as i64),
-        ))
-    };
+    let (out_reg, out_lane) = (last / lanes, last % lanes);
+    let mut lane_buf = [0.0f64; MAX_LANES];
 
     let (input, output) = (&input[..n], &mut output[..n]);
     let steps = n + last;
@@ -204,46 +145,41 @@ pub unsafe fn wavefront_avx2<const V: usize, const N: usize>(
         let x = if t < n { gain * input[t] } else { 0.0 };
         let first = (t + 1).saturating_sub(n);
         let top = t.min(last);
+        // None when every lane is busy, else the lanes that are.
         let busy = if first == 0 && top == last {
             None
         } else {
             Some(busy_bits(first, top))
         };
-        // [y3, y0, y1, y2] per register; lane 0 then comes from the register below (whose
-        // lane 0, after the same rotation, holds its y3), or the new input for register 0.
-        let mut below = _mm256_set1_pd(x);
-        for j in 0..V {
-            let rotated = _mm256_permute4x64_pd::<0b10_01_00_11>(y[j]);
-            let v = _mm256_blend_pd::<0b0001>(rotated, below);
-            below = rotated;
-            let out = _mm256_fmadd_pd(b0[j], v, s0[j]);
-            let n0 = _mm256_fnmadd_pd(a1[j], out, _mm256_fmadd_pd(b1[j], v, s1[j]));
-            let n1 = _mm256_fnmadd_pd(a2[j], out, _mm256_mul_pd(b2[j], v));
+        // Shift every output one lane up; the new input enters lane 0.
+        let mut carry = W::splat(x);
+        for j in 0..R {
+            let (v, next_carry) = y[j].shift_up(carry);
+            carry = next_carry;
+            let out = b0[j].mul_add(v, s0[j]);
+            let n0 = a1[j].neg_mul_add(out, b1[j].mul_add(v, s1[j]));
+            let n1 = a2[j].neg_mul_add(out, b2[j].mul(v));
             match busy {
                 None => {
                     s0[j] = n0;
                     s1[j] = n1;
                 }
                 Some(bits) => {
-                    let m = lane_mask(bits >> (4 * j));
-                    s0[j] = _mm256_blendv_pd(s0[j], n0, m);
-                    s1[j] = _mm256_blendv_pd(s1[j], n1, m);
+                    let m = bits >> (lanes * j);
+                    s0[j] = W::select(m, s0[j], n0);
+                    s1[j] = W::select(m, s1[j], n1);
                 }
             }
             y[j] = out;
         }
         if t >= last {
-            // SAFETY: lane_buf holds exactly 4 f64.
-            unsafe { _mm256_storeu_pd(lane_buf.as_mut_ptr(), y[out_reg]) };
+            y[out_reg].store(&mut lane_buf);
             output[t - last] = lane_buf[out_lane];
         }
     }
-    for j in 0..V {
-        // SAFETY: each array holds N = 4·V f64; register j covers 4j .. 4j + 4.
-        unsafe {
-            _mm256_storeu_pd(flat.s0.as_mut_ptr().add(4 * j), s0[j]);
-            _mm256_storeu_pd(flat.s1.as_mut_ptr().add(4 * j), s1[j]);
-        }
+    for j in 0..R {
+        s0[j].store(&mut flat.s0[lanes * j..]);
+        s1[j].store(&mut flat.s1[lanes * j..]);
     }
     flat.store(cascade);
 }
