@@ -142,7 +142,13 @@ fn grid_power(b: &[f64], a: &[f64], points: usize) -> Vec<f64> {
             .collect();
     }
     let size = 2 * points;
-    let fft = rustfft::FftPlanner::<f64>::new().plan_fft_forward(size);
+    // A plan is built once per size and thread (the boost cap's search asks for the same size
+    // hundreds of times).
+    thread_local! {
+        static PLANNER: std::cell::RefCell<rustfft::FftPlanner<f64>> =
+            std::cell::RefCell::new(rustfft::FftPlanner::new());
+    }
+    let fft = PLANNER.with(|planner| planner.borrow_mut().plan_fft_forward(size));
     let spectrum = |p: &[f64]| {
         let mut buffer = vec![Complex64::new(0.0, 0.0); size];
         for (slot, &c) in buffer.iter_mut().zip(p) {
