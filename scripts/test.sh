@@ -22,9 +22,11 @@ echo "== cargo test ==" >&2
 cargo test --all-targets
 
 # A short fuzzing run of both targets from the committed corpus (fuzz/README.md). The campaign's
-# hang limit is 1 s per input; here it is 2 s, so a busy machine's scheduler alone cannot fail it.
+# hang limit is 1 s per input, measured alone; the slowest committed inputs take up to about 1 s
+# in this instrumented build, so here the limit is 5 s: a slower or busy CI machine must not fail
+# on them, while a real hang still does.
 echo "== fuzzing, one minute per target ==" >&2
-bash scripts/fuzz.sh 60 2
+bash scripts/fuzz.sh 60 5
 
 # Real-time paced tests (the audio test kit's tier 2): a private PulseAudio with null sinks under
 # ALSA's file plugin. Everything it starts is stopped by PID when this script exits.

@@ -386,6 +386,15 @@ fn soak_with_reloads_and_guard_events() {
     let b = offline(LINK_B, &input);
     let through = bypass(&input);
     let end_frame = u(&end, "/engine/frames") as usize;
+    // The device path's own figures first, so that a walk that stops still shows them.
+    eprintln!(
+        "soak counters: {} stream errors, {} underrun and {} overrun samples, {} swaps, {} trips",
+        u(&end, "/audio/stream_errors"),
+        u(&end, "/engine/output_underruns"),
+        u(&end, "/engine/input_overruns"),
+        u(&end, "/engine/swaps_started"),
+        u(&end, "/engine/instability_trips"),
+    );
     let w = walk(
         &live,
         &[&a, &b, &through],
