@@ -197,12 +197,25 @@ pub fn walk(
             .count();
         // Frames the capture side dropped are missing from the recording: the output
         // resumes with reference frame n + k right after the silence, possibly through a
-        // transition of j frames (a fade-in after the streams restarted).
+        // transition of j frames (a fade-in after the streams restarted). Silence the playback
+        // side inserts in the middle of a transition (a crossfade cut by an underrun) shows as
+        // k < 0: the output resumes |k| frames later than the transition alone explains, and
+        // those frames must be silent ones inside it.
+        let l_after = l0 + silent as isize;
         let resume = (0..=max_transition).find_map(|j| {
-            (0..if j == 0 { MAX_DROP } else { MAX_SHIFT }).find_map(|k| {
-                let o = offset + silent as isize - k as isize;
+            let earliest = if j == 0 { 0 } else { -(j as isize) };
+            let latest = if j == 0 { MAX_DROP } else { MAX_SHIFT } as isize;
+            (earliest..latest).find_map(|k| {
+                let o = offset + silent as isize - k;
+                let r = n as isize + k + j as isize;
+                let inserted_inside = (-k).max(0) as usize;
                 (0..candidates.len())
-                    .find(|&c| run_matches(live, o, candidates[c], n + k + j))
+                    .find(|&c| run_matches(live, o, candidates[c], r as usize))
+                    .filter(|_| {
+                        inserted_inside == 0
+                            || silent_frames(live, l_after as usize, l_after as usize + j)
+                                >= inserted_inside
+                    })
                     .map(|c| (j, k, o, c))
             })
         });
@@ -226,16 +239,16 @@ pub fn walk(
                     .collect::<Vec<_>>()
             );
         };
-        w.inserted += silent;
-        w.dropped += k;
+        w.inserted += silent + (-k).max(0) as usize;
+        w.dropped += k.max(0) as usize;
         w.gaps_at.push(n);
         if j > 0 {
-            w.transitions.push((n + k, j));
+            w.transitions.push((n, j));
         }
         w.checked += j;
         offset = o;
         current = c;
-        n += k + j;
+        n = (n as isize + k + j as isize) as usize;
     }
     w.last_candidate = current;
     w.last_offset = offset;
