@@ -266,4 +266,33 @@ mod tests {
         let b = [0.0, 0.0, 0.0, 1.0];
         assert!((group_delay(&b, &[1.0], 0.3) - 3.0).abs() < 1e-12);
     }
+
+    // Source: common practice — the FFT grid is the same evaluation as Horner's rule at
+    // ω = π·i/points (a zero-padded DFT samples the z-transform on the circle).
+    #[test]
+    fn fft_grid_equals_direct_evaluation() {
+        let b: Vec<f64> = (0..40)
+            .map(|k| ((k * 7 % 11) as f64 - 5.0) * 0.9f64.powi(k))
+            .collect();
+        let a: Vec<f64> = (0..30)
+            .map(|k| {
+                if k == 0 {
+                    1.0
+                } else {
+                    0.3 * 0.7f64.powi(k) * ((k % 3) as f64 - 1.0)
+                }
+            })
+            .collect();
+        assert!(b.len().max(a.len()) >= FFT_GRID_MIN_COEFFICIENTS);
+        let points = 4096;
+        let grid = grid_power(&b, &a, points);
+        for i in (0..=points).step_by(37) {
+            let direct = response_at(&b, &a, PI * i as f64 / points as f64).norm_sqr();
+            assert!(
+                (grid[i] - direct).abs() <= 1e-10 * direct.max(1e-12),
+                "point {i}: FFT {} direct {direct}",
+                grid[i]
+            );
+        }
+    }
 }
