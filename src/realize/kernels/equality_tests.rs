@@ -256,6 +256,70 @@ fn wavefront_covers_every_section_count() {
     );
 }
 
+/// One design per channel, each of `order` (pole pairs turned a little per channel, plus a real
+/// pole and zero for odd orders), realized as `structure`; `None` if any does not realize.
+fn detuned_filters(channels: usize, order: usize, structure: Structure) -> Option<Vec<Filter>> {
+    (0..channels)
+        .map(|c| {
+            let product = |radius: f64, turn: f64, gain: f64| {
+                let pairs = order / 2;
+                let start = if order % 2 == 1 {
+                    multiply(&[gain], &[1.0, -radius])
+                } else {
+                    vec![gain]
+                };
+                (0..pairs).fold(start, |acc, i| {
+                    let r = radius + 0.3 * (i as f64 / pairs as f64);
+                    let a = turn + 0.1 * c as f64 + 2.8 * i as f64 / pairs as f64;
+                    multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
+                })
+            };
+            let design = TransferFunction::new(product(0.4, 0.3, 1.2), product(0.6, 0.1, 1.0));
+            realize(&design, structure, CoefficientPrecision::F64)
+                .ok()
+                .map(|r| r.filter)
+        })
+        .collect()
+}
+
+/// Runs `filters` as a channel bank over `frames` of a seeded signal, in odd-sized blocks, and
+/// asserts that every channel equals its own per-sample run; returns the bank.
+fn bank_equals_plain(filters: &[Filter], frames: usize, seed: u64, what: &str) -> ChannelBank {
+    let channels = filters.len();
+    let planar: Vec<Vec<f64>> = (0..channels)
+        .map(|c| {
+            signal(frames, seed + c as u64)
+                .iter()
+                .map(|&v| f64::from(v as f32))
+                .collect()
+        })
+        .collect();
+    let interleaved: Vec<f32> = (0..frames)
+        .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
+        .collect();
+    let mut bank = ChannelBank::new(filters.to_vec());
+    let mut out = vec![0.0f64; interleaved.len()];
+    for (x, y) in interleaved
+        .chunks(77 * channels)
+        .zip(out.chunks_mut(77 * channels))
+    {
+        bank.process(x, y);
+    }
+    for (c, filter) in filters.iter().enumerate() {
+        let expected = plain_run(filter, &planar[c]);
+        let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        let worst = (0..frames).fold(0.0f64, |m, n| {
+            m.max((out[n * channels + c] - expected[n]).abs())
+        });
+        assert!(
+            worst <= RELATIVE_TOLERANCE * peak,
+            "{what}, channel {c} of {channels} ({} in lanes): {worst:e} against {peak:e}",
+            bank.channels_in_lanes()
+        );
+    }
+    bank
+}
+
 // Source: common practice — a channel bank splits a cascade into groups of sections compiled
 // for their exact size; every split (1 … 4 sections per group, several groups) must give each
 // channel's own per-sample output, in 8-lane and 4-lane groups alike.
@@ -264,59 +328,11 @@ fn lane_groups_cover_every_section_count() {
     let mut tested = 0;
     for pairs in 1..=17usize {
         for channels in [3, 8] {
-            // Each channel its own cascade of `pairs` sections: poles turned a little per channel.
-            let filters: Vec<Filter> = (0..channels)
-                .filter_map(|c| {
-                    let product = |radius: f64, turn: f64, gain: f64| {
-                        (0..pairs).fold(vec![gain], |acc, i| {
-                            let r = radius + 0.3 * (i as f64 / pairs as f64);
-                            let a = turn + 0.1 * c as f64 + 2.8 * i as f64 / pairs as f64;
-                            multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
-                        })
-                    };
-                    let design =
-                        TransferFunction::new(product(0.4, 0.3, 1.2), product(0.6, 0.1, 1.0));
-                    realize(&design, Structure::Sections, CoefficientPrecision::F64)
-                        .ok()
-                        .map(|r| r.filter)
-                })
-                .collect();
-            if filters.len() != channels {
+            let Some(filters) = detuned_filters(channels, 2 * pairs, Structure::Sections) else {
                 continue;
-            }
-            let frames = 600;
-            let planar: Vec<Vec<f64>> = (0..channels)
-                .map(|c| {
-                    signal(frames, (pairs * 31 + c) as u64)
-                        .iter()
-                        .map(|&v| f64::from(v as f32))
-                        .collect()
-                })
-                .collect();
-            let interleaved: Vec<f32> = (0..frames)
-                .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
-                .collect();
-            let mut bank = ChannelBank::new(filters.clone());
-            let mut out = vec![0.0f64; interleaved.len()];
-            for (x, y) in interleaved
-                .chunks(77 * channels)
-                .zip(out.chunks_mut(77 * channels))
-            {
-                bank.process(x, y);
-            }
-            for (c, filter) in filters.iter().enumerate() {
-                let expected = plain_run(filter, &planar[c]);
-                let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-                let worst = (0..frames).fold(0.0f64, |m, n| {
-                    m.max((out[n * channels + c] - expected[n]).abs())
-                });
-                assert!(
-                    worst <= RELATIVE_TOLERANCE * peak,
-                    "{pairs} sections, channel {c} of {channels} ({} in lanes): {worst:e} \
-                     against {peak:e}",
-                    bank.channels_in_lanes()
-                );
-            }
+            };
+            let seed = (pairs * 31) as u64;
+            bank_equals_plain(&filters, 600, seed, &format!("{pairs} sections"));
             tested += 1;
         }
     }
@@ -334,68 +350,13 @@ fn direct_form_lanes_cover_every_order() {
     let mut tested = 0;
     for order in 1..=MAX_REGISTER_ORDER + 2 {
         for channels in [3, 8] {
-            // Each channel its own design: pole pairs turned a little per channel, plus a real
-            // pole (and zero) for odd orders.
-            let filters: Vec<Filter> = (0..channels)
-                .filter_map(|c| {
-                    let product = |radius: f64, turn: f64, gain: f64| {
-                        let pairs = order / 2;
-                        let start = if order % 2 == 1 {
-                            multiply(&[gain], &[1.0, -radius])
-                        } else {
-                            vec![gain]
-                        };
-                        (0..pairs).fold(start, |acc, i| {
-                            let r = radius + 0.3 * (i as f64 / pairs as f64);
-                            let a = turn + 0.1 * c as f64 + 2.8 * i as f64 / pairs as f64;
-                            multiply(&acc, &[1.0, -2.0 * r * a.cos(), r * r])
-                        })
-                    };
-                    let design =
-                        TransferFunction::new(product(0.4, 0.3, 1.2), product(0.6, 0.1, 1.0));
-                    realize(&design, Structure::DirectForm2T, CoefficientPrecision::F64)
-                        .ok()
-                        .map(|r| r.filter)
-                })
-                .collect();
-            if filters.len() != channels {
+            let Some(filters) = detuned_filters(channels, order, Structure::DirectForm2T) else {
                 continue;
-            }
-            let frames = 600;
-            let planar: Vec<Vec<f64>> = (0..channels)
-                .map(|c| {
-                    signal(frames, (order * 37 + c) as u64)
-                        .iter()
-                        .map(|&v| f64::from(v as f32))
-                        .collect()
-                })
-                .collect();
-            let interleaved: Vec<f32> = (0..frames)
-                .flat_map(|n| planar.iter().map(move |p| p[n] as f32))
-                .collect();
-            let mut bank = ChannelBank::new(filters.clone());
+            };
+            let seed = (order * 37) as u64;
+            let bank = bank_equals_plain(&filters, 600, seed, &format!("order {order}"));
             if order <= 8 || (vector_unit && order <= MAX_REGISTER_ORDER) {
                 assert_eq!(bank.channels_in_lanes(), channels, "order {order}");
-            }
-            let mut out = vec![0.0f64; interleaved.len()];
-            for (x, y) in interleaved
-                .chunks(77 * channels)
-                .zip(out.chunks_mut(77 * channels))
-            {
-                bank.process(x, y);
-            }
-            for (c, filter) in filters.iter().enumerate() {
-                let expected = plain_run(filter, &planar[c]);
-                let peak = expected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-                let worst = (0..frames).fold(0.0f64, |m, n| {
-                    m.max((out[n * channels + c] - expected[n]).abs())
-                });
-                assert!(
-                    worst <= RELATIVE_TOLERANCE * peak,
-                    "order {order}, channel {c} of {channels} ({} in lanes): {worst:e} \
-                     against {peak:e}",
-                    bank.channels_in_lanes()
-                );
             }
             if order == 16 || order == 32 {
                 tested += 1;
