@@ -6,13 +6,8 @@
 set -eu
 here=$(cd "$(dirname "$0")" && pwd)
 repo=$(cd "$here/../.." && pwd)
-venv=${REDRESS_REFERENCE_VENV:-"$repo/.venv-reference"}
-if [ ! -x "$venv/bin/python" ]; then
-    echo "creating $venv with the pinned numpy and scipy" >&2
-    python3 -m venv "$venv"
-    "$venv/bin/python" -m pip install --quiet --disable-pip-version-check \
-        -r "$repo/scripts/reference/requirements.txt"
-fi
+# shellcheck source=../reference/reference_venv.sh
+. "$repo/scripts/reference/reference_venv.sh"
 cd "$repo"
 exec env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE OPENBLAS_NUM_THREADS=1 \
     "$venv/bin/python" "$here/compare_scipy.py" "$@"

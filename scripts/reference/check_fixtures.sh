@@ -11,14 +11,8 @@ set -eu
 
 here=$(cd "$(dirname "$0")" && pwd)
 repo=$(cd "$here/../.." && pwd)
-venv=${REDRESS_REFERENCE_VENV:-"$repo/.venv-reference"}
-
-if [ ! -x "$venv/bin/python" ]; then
-    echo "creating $venv with the pinned numpy and scipy" >&2
-    python3 -m venv "$venv"
-    "$venv/bin/python" -m pip install --quiet --disable-pip-version-check \
-        -r "$here/requirements.txt"
-fi
+# shellcheck source=reference_venv.sh
+. "$repo/scripts/reference/reference_venv.sh"
 
 # One BLAS thread: the eigenvalue routines behind numpy.roots then run the same way every time.
 export OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1

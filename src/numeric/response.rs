@@ -80,25 +80,15 @@ pub fn peak_magnitude_near(b: &[f64], a: &[f64], pole_angles: &[f64]) -> Peak {
         level_db: f64::NEG_INFINITY,
         omega: 0.0,
     };
-    for (_, i) in candidates {
-        let w = i as f64 * step;
-        let candidate = refine(
-            &level,
-            Peak {
-                level_db: level(w),
-                omega: w,
-            },
-            step,
-        );
-        if candidate.level_db > best.level_db {
-            best = candidate;
-        }
-    }
     // Conjugate pairs and repeated roots give the same angle twice or more: one search each.
     let mut angles: Vec<f64> = pole_angles.iter().map(|a| a.clamp(0.0, PI)).collect();
     angles.sort_by(f64::total_cmp);
     angles.dedup();
-    for &w in &angles {
+    let starts = candidates
+        .iter()
+        .map(|&(_, i)| i as f64 * step)
+        .chain(angles);
+    for w in starts {
         let candidate = refine(
             &level,
             Peak {
