@@ -13,7 +13,7 @@ ensure_cargo
 
 if [ -f scripts/reference/check_fixtures.sh ]; then
     echo "== reference fixtures (numpy/scipy, pinned) ==" >&2
-    bash scripts/reference/check_fixtures.sh
+    REDRESS_FIXTURES_OTHER_PATH=1 bash scripts/reference/check_fixtures.sh
 else
     echo "note: scripts/reference/check_fixtures.sh is not in this tree; fixture check skipped" >&2
 fi

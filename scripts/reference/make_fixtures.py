@@ -21,8 +21,9 @@ Step-down (Schur–Cohn) reflection coefficients are not in scipy and are delibe
 
 Usage:
   make_fixtures.py [--out DIR]      write fixtures (default: tests/fixtures/reference)
-  make_fixtures.py --check          regenerate into a temporary folder and compare byte for byte
-                                    with the committed files; exit 1 on any difference
+  make_fixtures.py --check          regenerate into a temporary folder and compare values with
+                                    the committed files within the tolerances of
+                                    fixture_compare.py; exit 1 on any difference beyond them
 """
 
 import math

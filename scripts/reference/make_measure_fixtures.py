@@ -12,8 +12,9 @@ For each channel: b, a, the sample rate, the orders an IIR fit should use, the i
 
 Usage:
   make_measure_fixtures.py [--out DIR]   write fixtures (default: tests/fixtures/measure)
-  make_measure_fixtures.py --check       regenerate into a temporary folder and compare byte for
-                                         byte with the committed files; exit 1 on any difference
+  make_measure_fixtures.py --check       regenerate into a temporary folder and compare values
+                                         with the committed files within the tolerances of
+                                         fixture_compare.py; exit 1 on any difference beyond them
 """
 
 import json

@@ -24,13 +24,14 @@ substitutes must reproduce:
     rule with numpy roots and freqz peaks, for the whole invented channels.
 
 The channels are invented links of our own. The JSON is written with make_fixtures.py's stable
-emitter (sorted keys, full-precision numbers), so a fresh run is byte-identical.
+emitter (sorted keys, full-precision numbers); a fresh run is compared by value (fixture_compare.py).
 
 Usage:
   make_substitute_fixtures.py [--out DIR]   write fixtures (default: tests/fixtures/substitutes)
-  make_substitute_fixtures.py --check       regenerate into a temporary folder and compare byte
-                                            for byte with the committed files; exit 1 on any
-                                            difference
+  make_substitute_fixtures.py --check       regenerate into a temporary folder and compare values
+                                            with the committed files within the tolerances of
+                                            fixture_compare.py; exit 1 on any difference beyond
+                                            them
 """
 
 import math
