@@ -1,6 +1,6 @@
 //! How long the engine's callback takes, measured on the real path: the configured filters in
 //! an [`Engine`] with the configured guards, fed generated programme one block at a time, each
-//! `Engine::process` call timed on its own.
+//! call of the engine's processing timed on its own.
 
 use std::time::Instant;
 
@@ -40,8 +40,10 @@ pub struct CallbackTiming {
     pub real_time_factor: f64,
     /// Callbacks slower than the block period.
     pub deadline_misses: usize,
-    /// The vector unit the kernels used, and how many channels ran in vector lanes.
-    pub vector_unit: String,
+    /// The vector unit the kernels used ("baseline", "avx2", "avx512"; `vector_unit_name`
+    /// spells it for people), and how many channels ran in vector lanes.
+    pub vector_unit: &'static str,
+    pub vector_unit_name: &'static str,
     pub channels_in_lanes: usize,
 }
 
@@ -123,7 +125,8 @@ fn summarize(
         headroom_max_pct: headroom(max),
         real_time_factor: if n == 0 { 0.0 } else { mean_us / period_us },
         deadline_misses: times_ns.iter().filter(|&&t| us(t) > period_us).count(),
-        vector_unit: format!("{:?}", detected_vector_unit()),
+        vector_unit: detected_vector_unit().key(),
+        vector_unit_name: detected_vector_unit().name(),
         channels_in_lanes,
     }
 }

@@ -20,11 +20,11 @@ pub fn render_text(r: &BenchReport) -> String {
     let _ = writeln!(
         s,
         "  kernels           {} vector unit; {} of {} channel(s) in vector lanes",
-        c.vector_unit, c.channels_in_lanes, c.channels
+        c.vector_unit_name, c.channels_in_lanes, c.channels
     );
     let _ = writeln!(
         s,
-        "\ncallback processing time over {} callbacks (Engine::process, guards included)",
+        "\ncallback processing time over {} callbacks (the engine's whole work per callback, guards included)",
         c.blocks
     );
     let _ = writeln!(s, "  p50               {:>10.1} µs", c.p50_us);

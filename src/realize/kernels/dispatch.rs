@@ -32,6 +32,30 @@ pub enum VectorUnit {
     Avx512,
 }
 
+impl VectorUnit {
+    /// The trade's spelling, for people: "AVX-512", "AVX2", or the baseline named plainly.
+    pub fn name(self) -> &'static str {
+        match self {
+            VectorUnit::Baseline if cfg!(target_arch = "x86_64") => {
+                "baseline x86-64 (SSE2, no wider vector unit used)"
+            }
+            VectorUnit::Baseline if cfg!(target_arch = "aarch64") => "baseline (NEON)",
+            VectorUnit::Baseline => "baseline (the build's own instruction set)",
+            VectorUnit::Avx2 => "AVX2",
+            VectorUnit::Avx512 => "AVX-512",
+        }
+    }
+
+    /// The spelling in JSON and in `REDRESS_KERNELS`: "baseline", "avx2", "avx512".
+    pub fn key(self) -> &'static str {
+        match self {
+            VectorUnit::Baseline => "baseline",
+            VectorUnit::Avx2 => "avx2",
+            VectorUnit::Avx512 => "avx512",
+        }
+    }
+}
+
 const UNKNOWN: u8 = 0;
 static DETECTED: AtomicU8 = AtomicU8::new(UNKNOWN);
 
