@@ -320,8 +320,9 @@ fn soak_with_reloads_and_guard_events() {
     let dir = temp_dir("paced-soak");
     let config = dir.join("link.toml");
     std::fs::write(&config, format!("{LINK_A}{AUDIO}")).unwrap();
-    // Guard events: every 7 s, 32 frames of NaN in the capture stream (a broken converter
-    // upstream). The instability guard must trip, reset, fall back, and fade back in.
+    // Input faults: every 7 s, 32 frames of NaN in the capture stream (a broken converter
+    // upstream). They are the input's fault, not the filters': silenced and counted, with the
+    // running filters kept (no trip, no transition in the recording).
     let mut input = programme(seconds + 5.0, 23);
     let burst_every = 7 * 48_000;
     let mut bursts = 0;
@@ -406,7 +407,7 @@ fn soak_with_reloads_and_guard_events() {
     let trips = u(&end, "/engine/instability_trips") as usize;
     eprintln!(
         "soak: {:.0} s ({} frames), {reloads} reloads sent ({} good, {} rejected), {swaps} swaps, \
-         {bursts} NaN bursts → {trips} instability trips ({} non-finite), fallbacks {} last good \
+         {bursts} NaN bursts → {} input faults, {trips} instability trips ({} non-finite), fallbacks {} last good \
          / {} bypass; xruns: {} stream errors, {} underrun and {} overrun samples; recording: {} \
          frames checked, {} matched exactly (A {}, B {}, bypass {}), {} transitions (longest {} \
          frames), {} frames of silence inserted, {} dropped; resident memory after the first \
@@ -415,6 +416,7 @@ fn soak_with_reloads_and_guard_events() {
         end_frame,
         u(&end, "/reloads/succeeded"),
         u(&end, "/reloads/failed"),
+        u(&end, "/engine/input_faults"),
         u(&end, "/engine/non_finite_trips"),
         u(&end, "/engine/fallbacks_last_good"),
         u(&end, "/engine/fallbacks_bypass"),
@@ -441,7 +443,11 @@ fn soak_with_reloads_and_guard_events() {
         "resident memory moved by {} kB after the first quarter",
         hi - lo
     );
-    assert!(trips >= 1 && u(&end, "/engine/non_finite_trips") >= 1);
+    assert_eq!(trips, 0, "bad input was blamed on the filters");
+    assert!(
+        u(&end, "/engine/input_faults_non_finite") >= 1,
+        "the NaN bursts were not counted as input faults"
+    );
     assert!(
         w.transitions.len() <= swaps + trips,
         "{} transitions, {swaps} swaps, {trips} trips",
