@@ -21,8 +21,8 @@ static ALLOCATOR: AllocDisabler = AllocDisabler;
 fn first_callback_with_the_kernels_capped_allocates_nothing() {
     // Set before anything in this process has asked which unit to use. Reading a set variable
     // allocates (the value is copied into a String), so a choice made on the audio thread shows.
-    // SAFETY of the call: this test binary runs this one test, and no other thread reads the
-    // environment while it is set.
+    // Sound: this test binary runs this one test, and no other thread reads the environment
+    // while it is set.
     std::env::set_var("REDRESS_KERNELS", "avx2");
     // A mono direct form of order 2: a set that never consults the unit while it is grouped.
     let filter = Filter::unvalidated_direct_form(vec![1.0, -0.5], vec![1.0, -0.3]);
