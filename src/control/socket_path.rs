@@ -121,15 +121,7 @@ fn check_private_dir(dir: &Path) -> Result<(), String> {
     let meta = handle
         .metadata()
         .map_err(|e| format!("cannot inspect {}: {e}", dir.display()))?;
-    if let Some(uid) = current_uid() {
-        if meta.uid() != uid {
-            return Err(format!(
-                "{} belongs to another user (uid {})",
-                dir.display(),
-                meta.uid()
-            ));
-        }
-    }
+    owned_by_us(dir, &meta)?;
     let mode = meta.permissions().mode() & 0o7777;
     if mode & 0o077 != 0 {
         return Err(format!(
@@ -138,6 +130,17 @@ fn check_private_dir(dir: &Path) -> Result<(), String> {
         ));
     }
     Ok(())
+}
+
+fn owned_by_us(dir: &Path, meta: &fs::Metadata) -> Result<(), String> {
+    match current_uid() {
+        Some(uid) if meta.uid() != uid => Err(format!(
+            "{} belongs to another user (uid {})",
+            dir.display(),
+            meta.uid()
+        )),
+        _ => Ok(()),
+    }
 }
 
 /// For a socket path given explicitly: creates its directory owner-only (0700) if missing, or
@@ -158,15 +161,8 @@ pub fn prepare_private_dir(socket: &Path) -> Result<(), String> {
     if !meta.is_dir() {
         return Err(format!("{} is not a directory", dir.display()));
     }
-    if let Some(uid) = current_uid() {
-        if meta.uid() != uid {
-            return Err(format!(
-                "{} belongs to another user (uid {}); choose a socket path in a directory of your own",
-                dir.display(),
-                meta.uid()
-            ));
-        }
-    }
+    owned_by_us(dir, &meta)
+        .map_err(|why| format!("{why}; choose a socket path in a directory of your own"))?;
     // A shared directory such as /tmp is fine for an explicit path only if the socket itself
     // is locked down, which the server does; a private one we created is locked down fully.
     if meta.permissions().mode() & 0o022 != 0 && meta.permissions().mode() & 0o1000 == 0 {

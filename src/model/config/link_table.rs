@@ -126,31 +126,41 @@ fn read_linked_channels(
                 "write each group as a list of two or more channels, e.g. linked_channels = [[0, 1]]",
             ));
         }
-        let mut group = Vec::with_capacity(members.len());
-        for m in &members {
-            let c = m.integer()?;
-            if c < 0 || c >= channel_count as i64 {
-                return Err(m.fail(
-                    ConfigErrorKind::OutOfRange,
-                    format!(
-                        "channel {c} does not exist: channel_count = {channel_count}, so the \
-                         channels are 0 to {}",
-                        channel_count - 1
-                    ),
-                    "channels are numbered from 0; use one in range",
-                ));
-            }
-            let c = c as usize;
-            if group.contains(&c) {
-                return Err(m.fail(
-                    ConfigErrorKind::ChannelTwice,
-                    format!("channel {c} is listed twice in this group"),
-                    "list each channel once",
-                ));
-            }
-            group.push(c);
-        }
+        let group = read_channel_indices(&members, channel_count, "this group")?;
         lists.push(group);
     }
     Ok(lists)
+}
+
+/// Zero-based channel numbers, each in range and listed once `within` (a path, a group).
+pub(crate) fn read_channel_indices(
+    nodes: &[Node<'_>],
+    channel_count: usize,
+    within: &str,
+) -> Result<Vec<usize>, ConfigError> {
+    let mut channels = Vec::with_capacity(nodes.len());
+    for n in nodes {
+        let c = n.integer()?;
+        if c < 0 || c >= channel_count as i64 {
+            return Err(n.fail(
+                ConfigErrorKind::OutOfRange,
+                format!(
+                    "channel {c} does not exist: [link] has channel_count = {channel_count}, so \
+                     the channels are 0 to {}",
+                    channel_count - 1
+                ),
+                "channels are numbered from 0; use one in range or raise channel_count",
+            ));
+        }
+        let c = c as usize;
+        if channels.contains(&c) {
+            return Err(n.fail(
+                ConfigErrorKind::ChannelTwice,
+                format!("channel {c} is listed twice in {within}"),
+                "list each channel once",
+            ));
+        }
+        channels.push(c);
+    }
+    Ok(channels)
 }
