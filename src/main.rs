@@ -431,7 +431,7 @@ fn run(
     };
     let options = ServiceOptions {
         config,
-        socket: socket.unwrap_or_else(default_socket_path),
+        socket,
         source: if simulate {
             SourceChoice::Simulated {
                 truth: true_link,

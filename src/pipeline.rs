@@ -61,6 +61,9 @@ pub struct LinkPlan {
     pub sample_rate: f64,
     pub channel_count: usize,
     pub paths: Vec<PathPlan>,
+    /// Per audio channel: its linked group (numbered from 0), the channels the engine's guards
+    /// act on together ([`Link::channel_groups`]).
+    pub channel_groups: Vec<usize>,
 }
 
 impl LinkPlan {
@@ -95,6 +98,7 @@ pub fn plan_link(link: &Link) -> LinkPlan {
             .iter()
             .map(|path| plan_path(path, link.sample_rate))
             .collect(),
+        channel_groups: link.channel_groups(),
     }
 }
 

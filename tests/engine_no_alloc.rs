@@ -1,11 +1,13 @@
-//! The real processing path allocates and frees nothing: steady running, a swap with its
-//! crossfade, a guard trip with its fallback, and a fade-out.
+//! The real processing path allocates and frees nothing: steady running, input faults, a swap
+//! with its warm-up and crossfade, a swap between latencies (a dip), an incoming set dropped, a
+//! guard trip of one linked group with its fallback to the last good set (caught up mid-chunk),
+//! bypass through the delay lines, and a fade-out.
 
 mod common;
 
 use assert_no_alloc::{assert_no_alloc, reset_violation_count, violation_count, AllocDisabler};
-use common::{echo_line, inverse_set, resonant_line, runaway_set, sine};
-use redress::engine::{engine_pair, EngineSettings};
+use common::{delay_filter, echo_line, inverse_set, raw_filter, resonant_line, runaway_set, sine};
+use redress::engine::{engine_pair, EngineSettings, Equalizer, Fallback};
 
 #[global_allocator]
 static ALLOCATOR: AllocDisabler = AllocDisabler;
@@ -16,8 +18,24 @@ fn processing_allocates_nothing_even_during_swaps_and_trips() {
     let settings = EngineSettings::defaults(2, 48_000.0);
     let (mut engine, mut control) = engine_pair(settings, Some(inverse_set(&echo_line(), 2, 1)));
     let input = sine(256, 2, 440.0, 0.3, 0);
-    let mut nan_input = input.clone();
-    nan_input[10] = f32::NAN;
+    let mut faulty = input.clone();
+    faulty[10] = f32::NAN;
+    faulty[21] = f32::INFINITY;
+    // Fine for 2000 samples (past warm-up and crossfade), then a tap of 10⁶ on channel 1 only.
+    let mut late = vec![0.0; 2001];
+    late[0] = 1.0;
+    late[2000] = 1e6;
+    let late_runaway = Equalizer::from_filters(
+        vec![
+            raw_filter(vec![1.0], vec![1.0]),
+            raw_filter(late, vec![1.0]),
+        ],
+        1.0,
+        4,
+    )
+    .with_channel_groups(vec![0, 1]);
+    let delayed =
+        Equalizer::from_filters(vec![delay_filter(30); 2], 1.0, 5).with_latency(vec![30; 2]);
     let mut output = vec![0.0f32; input.len()];
     reset_violation_count();
 
@@ -27,12 +45,17 @@ fn processing_allocates_nothing_even_during_swaps_and_trips() {
         }
     };
     run(&mut engine, &input, 10);
+    run(&mut engine, &faulty, 2); // input faults: silenced and counted
     control.send(inverse_set(&resonant_line(), 2, 2)).unwrap();
-    run(&mut engine, &input, 10); // crossfade and completion (old set handed back)
+    run(&mut engine, &input, 10); // warm-up, crossfade and completion (old set handed back)
     control.send(runaway_set(2, 3)).unwrap();
-    run(&mut engine, &input, 10); // runaway aborted during its crossfade
-    run(&mut engine, &nan_input, 1); // guard trip, fallback to last good
-    run(&mut engine, &input, 10);
+    run(&mut engine, &input, 10); // runaway aborted while warming up
+    control.send(late_runaway).unwrap();
+    run(&mut engine, &input, 20); // swap, then channel 1 trips: its group to the last good set
+    control.send(delayed).unwrap();
+    run(&mut engine, &input, 10); // a dip to a set of another latency
+    control.send(runaway_set(2, 6)).unwrap();
+    run(&mut engine, &input, 10); // aborted again
     control.request_fade_out();
     run(&mut engine, &input, 10);
 
@@ -42,10 +65,28 @@ fn processing_allocates_nothing_even_during_swaps_and_trips() {
         "the audio path allocated or freed memory"
     );
     let snap = control.snapshot();
-    assert_eq!(snap.swaps_completed, 1);
-    assert!(snap.instability_trips >= 2);
+    assert_eq!(snap.swaps_completed, 3);
+    assert!(snap.instability_trips >= 3, "{snap:?}");
+    assert_eq!(snap.fallbacks_last_good, 1);
+    assert_eq!(snap.input_faults, 4);
     assert!(control.fade_out_done());
-    assert!(control.collect_returned() >= 2);
+    assert!(
+        control.collect_returned() >= 1,
+        "the last aborted set comes back"
+    );
+
+    // Bypass through the delay lines, after a whole-set trip with nothing to fall back to.
+    let s = EngineSettings {
+        fallback: Fallback::Bypass,
+        ..settings
+    };
+    let runaway_late =
+        Equalizer::from_filters(vec![raw_filter(vec![1.0], vec![1.0, -1.5]); 2], 1.0, 1)
+            .with_latency(vec![17, 40]);
+    let (mut engine, control) = engine_pair(s, Some(runaway_late));
+    run(&mut engine, &input, 10);
+    assert_eq!(violation_count(), 0, "bypass allocated or freed memory");
+    assert_eq!(control.snapshot().fallbacks_bypass, 1);
 
     // The detector itself works: one allocation inside the zone is counted.
     assert_no_alloc(|| drop(std::hint::black_box(Vec::<u8>::with_capacity(8))));

@@ -4,6 +4,7 @@ mod common;
 
 use common::{echo_line, inverse_set, resonant_line, sine};
 use redress::engine::{engine_pair, EngineSettings, Equalizer};
+use redress::model::TransferFunction;
 
 const BLOCK: usize = 128;
 
@@ -65,4 +66,68 @@ fn swap_on_a_steady_sine_has_no_click() {
     // And the swap really changed the output: after it, the engine runs the new set.
     let tail = start + crossfade + 50;
     assert!((output[tail] - old[tail]).abs() > 1e-3);
+}
+
+/// A link with a notch just inside the circle (zeros at radius 0.9995, 2 kHz): its inverse rings
+/// for about 290 ms (60 dB), so a fresh copy of it takes that long to reach its steady state.
+fn notched_line() -> TransferFunction {
+    let r: f64 = 0.9995;
+    let theta = 2.0 * std::f64::consts::PI * 2000.0 / 48_000.0;
+    TransferFunction::new(vec![1.0, -2.0 * r * theta.cos(), r * r], vec![1.0])
+}
+
+// Source: common practice — a recursive filter started from rest reaches its steady-state
+// response only after its transient has decayed (60 dB in its decay time). The incoming set
+// runs on the live input for that long (capped at WARM_UP_CAP_SECONDS) before the crossfade,
+// so when the crossfade ends it plays its steady state, not its start-up transient.
+#[test]
+fn an_incoming_set_is_warmed_up_before_its_crossfade() {
+    let settings = EngineSettings::defaults(1, 48_000.0);
+    let (mut engine, mut control) = engine_pair(settings, Some(inverse_set(&echo_line(), 1, 1)));
+    let incoming = inverse_set(&notched_line(), 1, 2);
+    let warm_up = incoming.warm_up_samples();
+    assert!(
+        (13_000..15_000).contains(&warm_up),
+        "decay of the notch's inverse: {warm_up} samples"
+    );
+    let seconds = 2;
+    let input = sine(seconds * 48_000, 1, 300.0, 0.02, 0);
+    let mut output = vec![0.0f32; input.len()];
+    let swap_at = 20 * BLOCK;
+    // Small blocks, so the end of the crossfade is seen to within 16 frames.
+    let step = 16;
+    let mut done = None;
+    for (b, (x, y)) in input.chunks(step).zip(output.chunks_mut(step)).enumerate() {
+        if b * step == swap_at {
+            control.send(incoming.clone()).unwrap();
+        }
+        engine.process(x, y);
+        if done.is_none() && control.snapshot().swaps_completed == 1 {
+            done = Some((b + 1) * step);
+        }
+    }
+    let done = done.expect("the swap completed");
+    eprintln!(
+        "crossfade ended {} samples after the swap began",
+        done - swap_at
+    );
+    // Steady state: the new set run over the whole signal.
+    let steady = run_alone(inverse_set(&notched_line(), 1, 2), &input);
+    let peak = steady[done..].iter().fold(0.0f32, |m, v| m.max(v.abs()));
+    let worst = output[done..]
+        .iter()
+        .zip(&steady[done..])
+        .map(|(a, b)| (a - b).abs())
+        .fold(0.0f32, f32::max);
+    eprintln!(
+        "warm-up {warm_up} samples ({:.0} ms): after the crossfade the output differs from the \
+         steady state by {:.2e} of its peak",
+        warm_up as f64 / 48.0,
+        worst / peak
+    );
+    assert!(
+        worst <= 2e-3 * peak,
+        "after the crossfade the output is {:.1} % of its peak away from the steady state",
+        100.0 * worst / peak
+    );
 }

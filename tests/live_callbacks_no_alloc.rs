@@ -105,6 +105,32 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
         "an underrun must play silence"
     );
 
+    // A fade-out: the capture side notes where it ended, the playback side what it took out
+    // of the ring and the delay its device reports, all without allocating. The fade has
+    // played only once its last frame and the device's delay after it are out of the ring.
+    let playout = capture.playout();
+    control.request_fade_out();
+    for _ in 0..2 {
+        assert_no_alloc(|| capture.on_input(&block));
+    }
+    assert_no_alloc(|| playback.record_device_delay(std::time::Duration::from_millis(1), 48_000));
+    assert_eq!(playout.device_delay(), 48);
+    assert!(!playout.faded_out_through(48));
+    let mut guard = 0;
+    while !playout.faded_out_through(48) {
+        assert_no_alloc(|| {
+            capture.on_input(&block);
+            playback.on_output(&mut out);
+        });
+        guard += 1;
+        assert!(guard < 100, "the fade-out never played out");
+    }
+    assert!(control.fade_out_done());
+    assert!(
+        out.iter().all(|v| *v == 0.0),
+        "after the fade has played, what follows it is silence"
+    );
+
     assert_eq!(
         violation_count(),
         0,

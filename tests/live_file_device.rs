@@ -60,6 +60,7 @@ fn annex_line() -> Link {
         sample_rate: f64::from(RATE),
         channel_count: CHANNELS,
         paths: vec![path],
+        linked_channels: Vec::new(),
         runtime: Default::default(),
     }
 }

@@ -10,13 +10,12 @@
 
 mod service_support;
 
-use std::path::Path;
-
 use redress::engine::Equalizer;
 use redress::io::{generate, ProgrammeSpec};
 use redress::model::config::parse_link;
 use redress::pipeline::plan_link;
-use service_support::{start, temp_dir, u, BROKEN, LINK_A, LINK_B};
+use service_support::recording::read_raw;
+use service_support::{start_paced, temp_dir, u, BROKEN, LINK_A, LINK_B};
 
 const CHANNELS: usize = 2;
 const RATE: f64 = 48_000.0;
@@ -115,7 +114,6 @@ fn max_step(y: &[f32], from: usize, to: usize) -> f32 {
 #[test]
 #[ignore = "needs the private PulseAudio that .ci/run starts (tests/audio/start-paced-audio.sh)"]
 fn paced_run_with_bad_and_good_reloads() {
-    let runtime = std::env::var_os("XDG_RUNTIME_DIR").expect("XDG_RUNTIME_DIR of the PulseAudio");
     let dir = temp_dir("svc-paced");
     let config = dir.join("link.toml");
     let audio = "\n[audio]\nbuffer_frames = 512\n";
@@ -123,29 +121,7 @@ fn paced_run_with_bad_and_good_reloads() {
 
     let mut input = generate(&ProgrammeSpec::new(RATE, CHANNELS, 8.0, 7));
     input.resize(input.len() + 2 * 48_000 * CHANNELS, 0.0);
-    let raw_in = dir.join("capture.raw");
-    let raw_out = dir.join("playback.raw");
-    std::fs::write(
-        &raw_in,
-        input
-            .iter()
-            .flat_map(|s| s.to_le_bytes())
-            .collect::<Vec<u8>>(),
-    )
-    .unwrap();
-    let alsa = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/audio/alsa-paced-device.conf");
-    let runtime = Path::new(&runtime);
-    let mut svc = start(
-        &dir,
-        &config,
-        &[],
-        &[
-            ("ALSA_CONFIG_PATH", &alsa),
-            ("EQ_TEST_INFILE", &raw_in),
-            ("EQ_TEST_OUTFILE", &raw_out),
-            ("XDG_RUNTIME_DIR", runtime),
-        ],
-    );
+    let (mut svc, raw_out) = start_paced(&dir, &config, &input);
     let frames_at_least = |n: u64| {
         move |d: &serde_json::Value| d.pointer("/engine/frames").and_then(|v| v.as_u64()) >= Some(n)
     };
@@ -191,11 +167,7 @@ fn paced_run_with_bad_and_good_reloads() {
         u(&end, "/engine/output_underruns")
     );
 
-    let bytes = std::fs::read(&raw_out).unwrap();
-    let live: Vec<f32> = bytes
-        .chunks_exact(4)
-        .map(|b| f32::from_le_bytes([b[0], b[1], b[2], b[3]]))
-        .collect();
+    let live = read_raw(&raw_out);
     let live_frames = live.len() / CHANNELS;
     let expected_a = offline(LINK_A, &input);
     let expected_b = offline(LINK_B, &input);
@@ -294,5 +266,62 @@ fn paced_run_with_bad_and_good_reloads() {
         got <= own + spread / crossfade + 1e-5,
         "largest step {got} exceeds the filters' own {own} plus the crossfade's {}",
         spread / crossfade
+    );
+}
+
+// Source: common practice for audio services — a stop fades the output out, and the fade must
+// reach the speaker: what was written before the stop is played, so the output ends in
+// silence rather than being cut mid-ramp in the ring or the device buffer. No timing is
+// asserted: only what the playback device was given, in order.
+#[test]
+#[ignore = "needs the private PulseAudio that .ci/run starts (tests/audio/start-paced-audio.sh)"]
+fn paced_stop_ends_at_silence() {
+    let dir = temp_dir("svc-paced-stop");
+    let config = dir.join("link.toml");
+    std::fs::write(&config, format!("{LINK_A}\n[audio]\nbuffer_frames = 512\n")).unwrap();
+    // A steady tone, loud until well after the stop: 30 s, 0.5 of full scale.
+    let amplitude = 0.5f32;
+    let input: Vec<f32> = (0..30 * 48_000)
+        .flat_map(|n| {
+            let v = amplitude * (2.0 * std::f64::consts::PI * 440.0 * n as f64 / RATE).sin() as f32;
+            [v; CHANNELS]
+        })
+        .collect();
+    let (mut svc, raw_out) = start_paced(&dir, &config, &input);
+    svc.wait_for("1.5 s of audio", |d| {
+        d.pointer("/engine/frames").and_then(|v| v.as_u64()) >= Some(72_000)
+    });
+    svc.signal("TERM");
+    assert_eq!(svc.wait_exit().code(), Some(0), "{}", svc.log_text());
+
+    let live = read_raw(&raw_out);
+    let frames = live.len() / CHANNELS;
+    let level = |f: usize| (0..CHANNELS).fold(0.0f32, |m, c| m.max(live[f * CHANNELS + c].abs()));
+    let last_sound = (0..frames)
+        .rev()
+        .find(|&f| level(f) > 0.0)
+        .expect("the recording holds the programme");
+    let silent_tail = frames - 1 - last_sound;
+    // The last millisecond of sound, against the tone's level before the stop.
+    let ending = (last_sound.saturating_sub(47)..=last_sound)
+        .map(level)
+        .fold(0.0, f32::max);
+    let before = (last_sound.saturating_sub(48_000)..last_sound.saturating_sub(24_000))
+        .map(level)
+        .fold(0.0, f32::max);
+    eprintln!(
+        "recording: {frames} frames; the sound ends at frame {last_sound} at level {ending:.4} \
+         (the tone was at {before:.3} before the stop), then {silent_tail} silent frame(s)"
+    );
+    assert!(before > 0.4, "the tone did not come through: {before}");
+    assert!(
+        silent_tail >= 48,
+        "the recording ends at sound, not at silence: the stop cut the output ({silent_tail} \
+         silent frames at the end, last level {ending})"
+    );
+    assert!(
+        ending <= 0.05 * before,
+        "the last millisecond of sound is at {ending} against {before} before the stop: cut, \
+         not faded"
     );
 }

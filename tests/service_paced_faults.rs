@@ -15,10 +15,9 @@ use std::time::{Duration, Instant};
 use redress::io::{generate, ProgrammeSpec};
 use serde_json::Value;
 use service_support::recording::{
-    bypass, cpu_ticks, offline, read_raw, rss_kb, silent_frames, walk, write_raw, GapBudget,
-    CHANNELS,
+    bypass, cpu_ticks, offline, read_raw, rss_kb, silent_frames, walk, GapBudget, CHANNELS,
 };
-use service_support::{start, temp_dir, u, Service, BROKEN, LINK_A, LINK_B};
+use service_support::{start_paced, temp_dir, u, BROKEN, LINK_A, LINK_B};
 
 const RATE: f64 = 48_000.0;
 const AUDIO: &str = "\n[audio]\nbuffer_frames = 512\n";
@@ -30,26 +29,6 @@ const MAX_TRANSITION: usize = 4800;
 
 fn runtime_dir() -> PathBuf {
     PathBuf::from(std::env::var_os("XDG_RUNTIME_DIR").expect("XDG_RUNTIME_DIR of the PulseAudio"))
-}
-
-fn paced_service(dir: &Path, config: &Path, input: &[f32]) -> (Service, PathBuf) {
-    let raw_in = dir.join("capture.raw");
-    let raw_out = dir.join("playback.raw");
-    write_raw(&raw_in, input);
-    let alsa = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/audio/alsa-paced-device.conf");
-    let runtime = runtime_dir();
-    let svc = start(
-        dir,
-        config,
-        &[],
-        &[
-            ("ALSA_CONFIG_PATH", &alsa),
-            ("EQ_TEST_INFILE", &raw_in),
-            ("EQ_TEST_OUTFILE", &raw_out),
-            ("XDG_RUNTIME_DIR", &runtime),
-        ],
-    );
-    (svc, raw_out)
 }
 
 /// The walk's device gaps against the service's counters in status document `d`.
@@ -104,7 +83,7 @@ fn the_sound_server_vanishes_and_comes_back() {
     let config = dir.join("link.toml");
     std::fs::write(&config, format!("{LINK_A}{AUDIO}")).unwrap();
     let input = programme(60.0, 11);
-    let (mut svc, raw_out) = paced_service(&dir, &config, &input);
+    let (mut svc, raw_out) = start_paced(&dir, &config, &input);
     svc.wait_for("1 s of audio", frames_at_least(48_000));
 
     paced_audio("stop-paced-audio.sh");
@@ -213,7 +192,7 @@ fn a_sighup_storm_never_interrupts_the_audio() {
     let config = dir.join("link.toml");
     std::fs::write(&config, format!("{LINK_A}{AUDIO}")).unwrap();
     let input = programme(12.0, 5);
-    let (mut svc, raw_out) = paced_service(&dir, &config, &input);
+    let (mut svc, raw_out) = start_paced(&dir, &config, &input);
     let before = svc.wait_for("2 s of audio", frames_at_least(96_000));
     for i in 0..100 {
         let text = match i % 4 {
@@ -320,8 +299,9 @@ fn soak_with_reloads_and_guard_events() {
     let dir = temp_dir("paced-soak");
     let config = dir.join("link.toml");
     std::fs::write(&config, format!("{LINK_A}{AUDIO}")).unwrap();
-    // Guard events: every 7 s, 32 frames of NaN in the capture stream (a broken converter
-    // upstream). The instability guard must trip, reset, fall back, and fade back in.
+    // Input faults: every 7 s, 32 frames of NaN in the capture stream (a broken converter
+    // upstream). They are the input's fault, not the filters': silenced and counted, with the
+    // running filters kept (no trip, no transition in the recording).
     let mut input = programme(seconds + 5.0, 23);
     let burst_every = 7 * 48_000;
     let mut bursts = 0;
@@ -331,7 +311,7 @@ fn soak_with_reloads_and_guard_events() {
         bursts += 1;
         at += burst_every;
     }
-    let (mut svc, raw_out) = paced_service(&dir, &config, &input);
+    let (mut svc, raw_out) = start_paced(&dir, &config, &input);
     let pid = svc.child.id();
     svc.wait_for("the first second", frames_at_least(48_000));
 
@@ -406,7 +386,7 @@ fn soak_with_reloads_and_guard_events() {
     let trips = u(&end, "/engine/instability_trips") as usize;
     eprintln!(
         "soak: {:.0} s ({} frames), {reloads} reloads sent ({} good, {} rejected), {swaps} swaps, \
-         {bursts} NaN bursts → {trips} instability trips ({} non-finite), fallbacks {} last good \
+         {bursts} NaN bursts → {} input faults, {trips} instability trips ({} non-finite), fallbacks {} last good \
          / {} bypass; xruns: {} stream errors, {} underrun and {} overrun samples; recording: {} \
          frames checked, {} matched exactly (A {}, B {}, bypass {}), {} transitions (longest {} \
          frames), {} frames of silence inserted, {} dropped; resident memory after the first \
@@ -415,6 +395,7 @@ fn soak_with_reloads_and_guard_events() {
         end_frame,
         u(&end, "/reloads/succeeded"),
         u(&end, "/reloads/failed"),
+        u(&end, "/engine/input_faults"),
         u(&end, "/engine/non_finite_trips"),
         u(&end, "/engine/fallbacks_last_good"),
         u(&end, "/engine/fallbacks_bypass"),
@@ -441,7 +422,11 @@ fn soak_with_reloads_and_guard_events() {
         "resident memory moved by {} kB after the first quarter",
         hi - lo
     );
-    assert!(trips >= 1 && u(&end, "/engine/non_finite_trips") >= 1);
+    assert_eq!(trips, 0, "bad input was blamed on the filters");
+    assert!(
+        u(&end, "/engine/input_faults_non_finite") >= 1,
+        "the NaN bursts were not counted as input faults"
+    );
     assert!(
         w.transitions.len() <= swaps + trips,
         "{} transitions, {swaps} swaps, {trips} trips",

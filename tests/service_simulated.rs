@@ -206,3 +206,185 @@ fn status_command_reads_the_service() {
     svc.signal("TERM");
     assert_eq!(svc.wait_exit().code(), Some(0));
 }
+
+/// `redress run CONFIG --simulate` with no --socket, in an environment of the test's making
+/// (no XDG_RUNTIME_DIR; TMPDIR and HOME given), stderr to DIR/service.log.
+fn start_default_socket(
+    dir: &std::path::Path,
+    config: &std::path::Path,
+    tmp: &std::path::Path,
+    home: &std::path::Path,
+) -> service_support::Service {
+    let log = dir.join("service.log");
+    let child = std::process::Command::new(env!("CARGO_BIN_EXE_redress"))
+        .arg("run")
+        .arg(config)
+        .arg("--simulate")
+        .env_remove("XDG_RUNTIME_DIR")
+        .env_remove("XDG_CACHE_HOME")
+        .env("TMPDIR", tmp)
+        .env("HOME", home)
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::fs::File::create(&log).unwrap())
+        .spawn()
+        .unwrap();
+    service_support::Service {
+        child,
+        socket: home.join(".cache/redress/status.sock"),
+        log,
+    }
+}
+
+/// Puts something in the way at a path.
+type Plant = Box<dyn Fn(&std::path::Path)>;
+
+// Source: common practice for sockets in a shared temporary directory (anyone may create a
+// name there first, or plant a symbolic link): the folder is created or checked without
+// following links, must be the user's own and closed to others, and otherwise the service
+// falls back to a folder in the user's home instead of refusing to start or following the link.
+#[test]
+fn default_socket_falls_back_when_the_shared_folder_is_not_safe() {
+    use std::os::unix::fs::MetadataExt;
+    let dir = temp_dir("svc-socket-fallback");
+    let config = dir.join("link.toml");
+    std::fs::write(&config, LINK_A).unwrap();
+    let uid = redress::control::current_uid().unwrap();
+    let mut plants: Vec<(&str, Plant)> = Vec::new();
+    // A link to a folder of someone else's choosing.
+    let elsewhere = dir.join("elsewhere");
+    std::fs::create_dir(&elsewhere).unwrap();
+    std::fs::set_permissions(&elsewhere, std::fs::Permissions::from_mode(0o700)).unwrap();
+    let target = elsewhere.clone();
+    plants.push((
+        "a symbolic link",
+        Box::new(move |p| std::os::unix::fs::symlink(&target, p).unwrap()),
+    ));
+    // A folder open to everyone (what another user could have made, but owned by us here).
+    plants.push((
+        "a folder open to others",
+        Box::new(|p| {
+            std::fs::create_dir(p).unwrap();
+            std::fs::set_permissions(p, std::fs::Permissions::from_mode(0o777)).unwrap();
+        }),
+    ));
+    if uid == 0 {
+        // Running as root: a folder that really belongs to another user.
+        plants.push((
+            "another user's folder",
+            Box::new(|p| {
+                std::fs::create_dir(p).unwrap();
+                std::fs::set_permissions(p, std::fs::Permissions::from_mode(0o700)).unwrap();
+                std::os::unix::fs::chown(p, Some(1), Some(1)).unwrap();
+            }),
+        ));
+    }
+    for (i, (what, plant)) in plants.iter().enumerate() {
+        let tmp = dir.join(format!("tmp{i}"));
+        let home = dir.join(format!("home{i}"));
+        std::fs::create_dir_all(&tmp).unwrap();
+        std::fs::create_dir_all(&home).unwrap();
+        let shared = tmp.join(format!("redress-{uid}"));
+        plant(&shared);
+        let mut svc = start_default_socket(&dir, &config, &tmp, &home);
+        svc.wait_ready();
+        let meta = std::fs::symlink_metadata(&svc.socket).unwrap();
+        assert!(
+            std::os::unix::fs::FileTypeExt::is_socket(&meta.file_type()),
+            "{what}"
+        );
+        let folder = std::fs::metadata(svc.socket.parent().unwrap()).unwrap();
+        assert_eq!(
+            (folder.uid(), folder.permissions().mode() & 0o777),
+            (uid, 0o700),
+            "{what}"
+        );
+        assert_eq!(
+            std::fs::read_dir(&elsewhere).unwrap().count(),
+            0,
+            "{what}: something was created through the link"
+        );
+        // `redress status` finds it by the same rules.
+        let status = std::process::Command::new(env!("CARGO_BIN_EXE_redress"))
+            .args(["status", "--json"])
+            .env_remove("XDG_RUNTIME_DIR")
+            .env_remove("XDG_CACHE_HOME")
+            .env("TMPDIR", &tmp)
+            .env("HOME", &home)
+            .output()
+            .unwrap();
+        assert!(
+            status.status.success(),
+            "{what}: {}",
+            String::from_utf8_lossy(&status.stderr)
+        );
+        svc.signal("TERM");
+        assert_eq!(svc.wait_exit().code(), Some(0), "{what}");
+        assert!(
+            svc.log_text().contains("instead"),
+            "{what}: {}",
+            svc.log_text()
+        );
+    }
+}
+
+// Source: common practice for single-instance services — a lock beside the socket, taken before
+// a stale socket is removed and a new one bound, decides which of two services owns it.
+#[test]
+fn the_socket_lock_lets_exactly_one_instance_run() {
+    let dir = temp_dir("svc-lock");
+    let config = dir.join("link.toml");
+    std::fs::write(&config, LINK_A).unwrap();
+    let run = dir.join("run");
+    std::fs::create_dir_all(&run).unwrap();
+    std::fs::set_permissions(&run, std::fs::Permissions::from_mode(0o700)).unwrap();
+    let socket = run.join("status.sock");
+
+    // Whoever holds the lock owns the socket path, even before a socket exists.
+    let held = std::fs::File::create(run.join("status.sock.lock")).unwrap();
+    held.try_lock().unwrap();
+    let refused = std::process::Command::new(env!("CARGO_BIN_EXE_redress"))
+        .arg("run")
+        .arg(&config)
+        .arg("--simulate")
+        .args(["--for", "10"]) // should it start after all, it stops by itself
+        .arg("--socket")
+        .arg(&socket)
+        .stdin(std::process::Stdio::null())
+        .output()
+        .unwrap();
+    assert_eq!(
+        refused.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&refused.stderr)
+    );
+    assert!(String::from_utf8_lossy(&refused.stderr).contains("already running"));
+    assert!(!socket.exists(), "the refused instance touched the socket");
+    drop(held);
+
+    // Several started together over a stale socket: one runs, the others refuse.
+    drop(std::os::unix::net::UnixListener::bind(&socket).unwrap());
+    let mut services: Vec<_> = (0..4)
+        .map(|_| start(&dir, &config, &["--simulate"], &[]))
+        .collect();
+    let survivor = loop {
+        let running: Vec<usize> = (0..services.len())
+            .filter(|&i| services[i].child.try_wait().unwrap().is_none())
+            .collect();
+        if running.len() == 1 && services[running[0]].status().is_some() {
+            break running[0];
+        }
+        assert!(!running.is_empty(), "every instance exited");
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    };
+    let doc = services[survivor].status().unwrap();
+    assert_eq!(u(&doc, "/pid"), u64::from(services[survivor].child.id()));
+    for (i, svc) in services.iter_mut().enumerate() {
+        if i != survivor {
+            assert_eq!(svc.wait_exit().code(), Some(1));
+        }
+    }
+    services[survivor].signal("TERM");
+    assert_eq!(services[survivor].wait_exit().code(), Some(0));
+}

@@ -251,6 +251,7 @@ fn one_path_link(channel: TransferFunction) -> Link {
             circle_tolerance: 1e-9,
             inverse: InversePolicy::default(),
         }],
+        linked_channels: Vec::new(),
         runtime: Default::default(),
     }
 }

@@ -24,6 +24,10 @@ pub const STALL_SILENT: Duration = Duration::from_secs(4);
 pub const BACKOFF_FIRST: Duration = Duration::from_millis(500);
 /// …up to this.
 pub const BACKOFF_MAX: Duration = Duration::from_secs(8);
+/// The devices must have run this long after a reopening before the back-off starts again from
+/// its first step: a device that opens and dies at once is retried at ever longer waits, not
+/// twice a second for ever (each try rebuilds the engine).
+pub const STABLE_RUN: Duration = Duration::from_secs(30);
 
 /// What one look at the audio side concluded.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -134,6 +138,39 @@ impl Backoff {
     /// Attempts made so far.
     pub fn attempts(&self) -> u32 {
         self.attempts
+    }
+}
+
+/// Paces the attempts to reopen the devices across losses: the back-off carries on from one
+/// loss to the next unless the devices ran for [`STABLE_RUN`] in between.
+#[derive(Debug, Clone, Default)]
+pub struct RecoveryPacer {
+    backoff: Backoff,
+    /// When the devices were last opened (after a loss), while they still run.
+    opened_at: Option<Instant>,
+}
+
+impl RecoveryPacer {
+    /// The devices were found lost at `now`: the wait before the first attempt to reopen them.
+    pub fn lost(&mut self, now: Instant) -> Duration {
+        let ran_stably = self
+            .opened_at
+            .take()
+            .is_some_and(|at| now.saturating_duration_since(at) >= STABLE_RUN);
+        if ran_stably {
+            self.backoff = Backoff::default();
+        }
+        self.backoff.next_delay()
+    }
+
+    /// An attempt to reopen failed: the wait before the next one.
+    pub fn failed(&mut self) -> Duration {
+        self.backoff.next_delay()
+    }
+
+    /// The devices were opened again at `now`.
+    pub fn opened(&mut self, now: Instant) {
+        self.opened_at = Some(now);
     }
 }
 
@@ -261,5 +298,29 @@ mod tests {
         let delays: Vec<u64> = (0..7).map(|_| b.next_delay().as_millis() as u64).collect();
         assert_eq!(delays, vec![500, 1000, 2000, 4000, 8000, 8000, 8000]);
         assert_eq!(b.attempts(), 7);
+    }
+
+    // Source: common practice (exponential back-off that resets only after a stable run).
+    #[test]
+    fn a_device_that_opens_and_dies_at_once_is_retried_ever_more_slowly() {
+        let t0 = Instant::now();
+        let mut pacer = RecoveryPacer::default();
+        let mut now = t0;
+        let mut waits = Vec::new();
+        for _ in 0..6 {
+            let wait = pacer.lost(now);
+            waits.push(wait.as_millis() as u64);
+            now += wait;
+            pacer.opened(now);
+            now += Duration::from_millis(50); // dies again at once
+        }
+        assert_eq!(waits, vec![500, 1000, 2000, 4000, 8000, 8000]);
+        // A failed attempt in between doubles as well.
+        assert_eq!(pacer.failed().as_millis(), 8000);
+        // After a stable run the next loss starts from the first step again.
+        pacer.opened(now);
+        now += STABLE_RUN;
+        assert_eq!(pacer.lost(now).as_millis(), 500);
+        assert_eq!(pacer.lost(now).as_millis(), 1000);
     }
 }

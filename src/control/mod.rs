@@ -13,7 +13,7 @@ mod status;
 mod status_client;
 mod status_server;
 
-pub use device_watch::{Backoff, DeviceWatch, Health};
+pub use device_watch::{Backoff, DeviceWatch, Health, RecoveryPacer, STABLE_RUN};
 pub use error::ServiceError;
 pub use logging::init_logging;
 pub use running::{AudioSource, RunningAudio, DEFAULT_SIMULATED_BLOCK};

@@ -15,6 +15,10 @@ use crate::pipeline::LinkPlan;
 /// Block size of the simulated link when the config names none (frames).
 pub const DEFAULT_SIMULATED_BLOCK: usize = 256;
 
+/// Longest wait, once the engine has faded out, for the fade to play through the ring and the
+/// device (normally a few periods: tens of milliseconds).
+pub const PLAYOUT_WAIT: Duration = Duration::from_secs(2);
+
 /// What drives the engine.
 #[derive(Debug, Clone)]
 pub enum AudioSource {
@@ -197,7 +201,9 @@ impl RunningAudio {
         }
     }
 
-    /// Fades the output to silence (waiting at most `timeout`), then stops the driver.
+    /// Fades the output to silence (waiting at most `timeout` for the engine to finish it),
+    /// waits until the fade has played through the ring and the device's buffer (at most
+    /// [`PLAYOUT_WAIT`]), then stops the driver: a stop cuts nothing but silence.
     pub fn fade_out_and_stop(mut self, timeout: Duration) {
         self.control.request_fade_out();
         let started = Instant::now();
@@ -205,7 +211,15 @@ impl RunningAudio {
             std::thread::sleep(Duration::from_millis(5));
         }
         match self.driver {
-            Driver::Devices(d) => d.stop(),
+            Driver::Devices(d) => {
+                if !d.wait_faded_out(PLAYOUT_WAIT) {
+                    log::warn!(
+                        "the fade-out had not played out after {:.1} s; stopping anyway",
+                        PLAYOUT_WAIT.as_secs_f64()
+                    );
+                }
+                d.stop()
+            }
             Driver::Simulated(mut p) => p.stop(),
         }
         self.control.collect_returned();

@@ -11,10 +11,10 @@ use std::time::{Duration, Instant};
 
 use log::{debug, error, info, warn};
 
-use super::device_watch::{Backoff, DeviceWatch, Health};
+use super::device_watch::{DeviceWatch, Health, RecoveryPacer};
 use super::running::{AudioSource, RunningAudio};
 use super::signals::SignalFlags;
-use super::socket_path::current_uid;
+use super::socket_path::{current_uid, prepare_default_socket};
 use super::status::{path_summaries, AudioStatus, ReloadStatus, ServiceStatus};
 use super::status_server::{SharedDocument, StatusServer};
 use super::ServiceError;
@@ -32,7 +32,8 @@ const STATUS_EVERY: Duration = Duration::from_millis(250);
 #[derive(Debug, Clone)]
 pub struct ServiceOptions {
     pub config: PathBuf,
-    pub socket: PathBuf,
+    /// The status socket; `None` for the default (see `default_socket_path`).
+    pub socket: Option<PathBuf>,
     pub source: SourceChoice,
     /// Stop by itself after this long (demos and tests); `None` runs until TERM/INT.
     pub run_for: Option<Duration>,
@@ -63,6 +64,9 @@ struct Service {
     /// Stream errors already logged, and when the last such line was written.
     seen_stream_errors: u64,
     last_error_log: Option<Instant>,
+    /// Input faults already logged, and when the last such line was written.
+    seen_input_faults: u64,
+    last_fault_log: Option<Instant>,
     started: Instant,
     document: SharedDocument,
     /// A filter set accepted by a reload but not yet taken by the engine (its inbox was full:
@@ -76,6 +80,8 @@ struct Service {
     watch: DeviceWatch,
     /// Set while the devices are lost and being reopened.
     recovery: Option<Recovery>,
+    /// Paces the attempts to reopen, across losses.
+    pacer: RecoveryPacer,
     device_losses: u64,
     recoveries: u64,
     last_loss: Option<String>,
@@ -85,11 +91,11 @@ struct Service {
     last_engine: Option<StatsSnapshot>,
 }
 
-/// The devices are gone: when they went, and when to try them again.
+/// The devices are gone: when they went, when to try them again, and how many tries so far.
 struct Recovery {
     since: Instant,
     next_try: Instant,
-    backoff: Backoff,
+    attempts: u32,
 }
 
 /// Runs the service until TERM/INT (or `run_for`). Returns once the audio has faded out and
@@ -125,7 +131,21 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
     // Until the first real document is published, clients are told to wait.
     let starting = serde_json::json!({ "error": "the service is starting; ask again shortly" });
     let document: SharedDocument = Arc::new(Mutex::new(Arc::new(starting.to_string())));
-    let server = StatusServer::start(&options.socket, Arc::clone(&document))?;
+    let socket = match &options.socket {
+        Some(path) => path.clone(),
+        None => {
+            let (path, fell_back) =
+                prepare_default_socket().map_err(|why| ServiceError::Socket {
+                    path: super::socket_path::default_socket_path(),
+                    why,
+                })?;
+            if let Some(why) = fell_back {
+                warn!("{why}: the status socket is {} instead", path.display());
+            }
+            path
+        }
+    };
+    let server = StatusServer::start(&socket, Arc::clone(&document))?;
     let audio = RunningAudio::start(&link, &plan, 1, &source)?;
     let mut service = Service {
         options,
@@ -138,6 +158,8 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         restarts: 0,
         seen_stream_errors: 0,
         last_error_log: None,
+        seen_input_faults: 0,
+        last_fault_log: None,
         started: Instant::now(),
         document,
         pending: None,
@@ -145,6 +167,7 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         reload_again: false,
         watch: DeviceWatch::new(Instant::now()),
         recovery: None,
+        pacer: RecoveryPacer::default(),
         device_losses: 0,
         recoveries: 0,
         last_loss: None,
@@ -330,8 +353,7 @@ impl Service {
     fn enter_recovery(&mut self, why: String) {
         let now = Instant::now();
         self.device_losses += 1;
-        let mut backoff = Backoff::default();
-        let wait = backoff.next_delay();
+        let wait = self.pacer.lost(now);
         warn!(
             "audio devices lost ({why}); generation {} stays loaded; reopening in {:.1} s",
             self.generation,
@@ -343,7 +365,7 @@ impl Service {
         self.recovery = Some(Recovery {
             since: now,
             next_try: now + wait,
-            backoff,
+            attempts: 0,
         });
         self.publish();
     }
@@ -383,9 +405,11 @@ impl Service {
         if now < recovery.next_try {
             return;
         }
+        recovery.attempts += 1;
         match RunningAudio::start(&self.link, &self.plan, self.generation, &self.source) {
             Ok(audio) => {
-                let attempts = recovery.backoff.attempts();
+                let attempts = recovery.attempts;
+                self.pacer.opened(Instant::now());
                 info!(
                     "audio devices back after {:.1} s and {attempts} attempt(s): generation {} \
                      running on {}",
@@ -400,11 +424,11 @@ impl Service {
                 self.watch = DeviceWatch::new(Instant::now());
             }
             Err(e) => {
-                let wait = recovery.backoff.next_delay();
+                let wait = self.pacer.failed();
                 recovery.next_try = Instant::now() + wait;
                 warn!(
                     "reopening the audio devices failed (attempt {}): {e}; next try in {:.1} s",
-                    recovery.backoff.attempts() - 1,
+                    recovery.attempts,
                     wait.as_secs_f64()
                 );
                 self.last_retry_error = Some(e.to_string());
@@ -443,6 +467,27 @@ impl Service {
             );
             self.seen_stream_errors = errors;
         }
+        let faults = audio
+            .control
+            .stats()
+            .input_faults
+            .load(std::sync::atomic::Ordering::Relaxed);
+        let quiet = self
+            .last_fault_log
+            .is_some_and(|t| t.elapsed() < Duration::from_secs(1));
+        if faults < self.seen_input_faults {
+            // The streams were restarted: the engine's counters begin again.
+            self.seen_input_faults = 0;
+        }
+        if faults > self.seen_input_faults && !quiet {
+            self.last_fault_log = Some(Instant::now());
+            warn!(
+                "the input carried {} more sample(s) that are not audio (NaN, ∞ or beyond \
+                 ±1000; {faults} in all): silenced before the filters, which keep running",
+                faults - self.seen_input_faults
+            );
+            self.seen_input_faults = faults;
+        }
         for event in audio.control.drain_events() {
             match event {
                 EngineEvent::SwapStarted { generation } => {
@@ -462,8 +507,9 @@ impl Service {
                     fallback,
                     now_running,
                 } => warn!(
-                    "instability guard: generation {generation} {} on channel {channel}; state \
-                     reset, fell back to {} (generation {now_running} running)",
+                    "instability guard: generation {generation} {} on channel {channel}; that \
+                     channel's linked group reset and fell back to {} (generation \
+                     {now_running} running)",
                     if non_finite {
                         "produced a non-finite sample"
                     } else {

@@ -172,13 +172,22 @@ pub fn render_status_text(doc: &Value) -> String {
     ));
     out.push_str(&format!(
         "guards       {} clipped sample(s), {} limited, {} instability trip(s) ({} non-finite), \
-         fallbacks: {} to last good, {} to bypass\n",
+         fallbacks: {} to last good, {} to bypass{}\n",
         u(&engine["clipped_samples"]),
         u(&engine["limited_samples"]),
         u(&engine["instability_trips"]),
         u(&engine["non_finite_trips"]),
         u(&engine["fallbacks_last_good"]),
-        u(&engine["fallbacks_bypass"])
+        u(&engine["fallbacks_bypass"]),
+        match u(&engine["channels_on_fallback"]) {
+            0 => String::new(),
+            n => format!("; {n} channel(s) on a fallback now"),
+        }
+    ));
+    out.push_str(&format!(
+        "input        {} fault(s) silenced ({} NaN or ∞, the rest beyond ±1000)\n",
+        u(&engine["input_faults"]),
+        u(&engine["input_faults_non_finite"])
     ));
     out.push_str(&format!(
         "swaps        {} started, {} completed\n",

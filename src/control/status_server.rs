@@ -17,7 +17,7 @@ use std::sync::{Arc, Mutex};
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
-use super::socket_path::{prepare_private_dir, restrict_socket};
+use super::socket_path::{lock_socket, prepare_private_dir, restrict_socket, LockRefused};
 use super::ServiceError;
 
 /// Longest request line read; anything longer is refused.
@@ -40,15 +40,27 @@ pub struct StatusServer {
     path: PathBuf,
     stop: Arc<AtomicBool>,
     thread: Option<JoinHandle<()>>,
+    /// The single-instance lock, held while the server lives (fields drop after `drop` has
+    /// removed the socket, so the lock is released last).
+    _lock: std::fs::File,
 }
 
 impl StatusServer {
-    /// Binds the socket (refusing if another live instance holds it; taking over a stale one)
-    /// and starts answering.
+    /// Takes the socket's single-instance lock (refusing if another instance holds it), then
+    /// binds the socket (taking over a stale one) and starts answering.
     pub fn start(path: &Path, document: SharedDocument) -> Result<Self, ServiceError> {
         prepare_private_dir(path).map_err(|why| ServiceError::Socket {
             path: path.to_path_buf(),
             why,
+        })?;
+        let lock = lock_socket(path).map_err(|refused| match refused {
+            LockRefused::Held => ServiceError::AlreadyRunning {
+                path: path.to_path_buf(),
+            },
+            LockRefused::Failed(why) => ServiceError::Socket {
+                path: path.to_path_buf(),
+                why,
+            },
         })?;
         claim_path(path)?;
         let listener = UnixListener::bind(path).map_err(|e| ServiceError::Socket {
@@ -78,6 +90,7 @@ impl StatusServer {
             path: path.to_path_buf(),
             stop,
             thread: Some(thread),
+            _lock: lock,
         })
     }
 

@@ -1,3 +1,4 @@
+use super::delay_lines::DelayLines;
 use crate::design::InverseDesign;
 use crate::numeric::impulse::decayed_impulse_response;
 use crate::pipeline::LinkPlan;
@@ -19,6 +20,14 @@ pub struct Equalizer {
     /// Per channel: per-sample factor by which the input envelope may fall, matched to the
     /// inverse's own 60 dB decay so a ringing tail never looks like a runaway.
     envelope_release: Vec<f64>,
+    /// Per channel: its linked group (channels the guards act on together), numbered from 0.
+    group_of: Vec<usize>,
+    /// Samples the set runs on the live input before it is crossfaded in: the slowest
+    /// channel's 60 dB decay, so its start-up transient has died away (the engine caps it).
+    warm_up: usize,
+    /// What bypass plays after this set: each channel's input delayed by its latency (the delay
+    /// the inverse adds on purpose, a least-squares FIR's D); boxed, as the bank is.
+    delay: Box<DelayLines>,
     /// Configuration generation this set was built from (0 for sets built outside a service).
     generation: u64,
 }
@@ -64,6 +73,8 @@ impl Equalizer {
         let mut filters = Vec::with_capacity(plan.channel_count);
         let mut output_bound = Vec::with_capacity(plan.channel_count);
         let mut envelope_release = Vec::with_capacity(plan.channel_count);
+        let mut latency = Vec::with_capacity(plan.channel_count);
+        let mut warm_up = 0usize;
         for channel in 0..plan.channel_count {
             let path = plan
                 .path_for_channel(channel)
@@ -75,25 +86,62 @@ impl Equalizer {
             filters.push(realization.filter.clone());
             output_bound.push(l1_gain(design));
             envelope_release.push(release_for(design));
+            latency.push(design.added_latency_samples);
+            warm_up = warm_up.max(decay_samples(design));
         }
+        let group_of = if plan.channel_groups.len() == plan.channel_count {
+            plan.channel_groups.clone()
+        } else {
+            vec![0; plan.channel_count]
+        };
         Ok(Self {
             bank: Box::new(ChannelBank::new(filters)),
             output_bound,
             envelope_release,
+            delay: Box::new(DelayLines::new(&latency)),
+            group_of,
+            warm_up,
             generation,
         })
     }
 
     /// Builds an equalizer from ready filters, one per channel, with the guard figures given
-    /// (tests, benchmarks and the guard's own bypass). `output_bound` is Σ|g[n]| per channel.
+    /// (tests and benchmarks). `output_bound` is Σ|g[n]| per channel. The set adds no latency,
+    /// all its channels are one linked group, and it needs no warm-up; the `with_*` methods
+    /// say otherwise.
     pub fn from_filters(filters: Vec<Filter>, output_bound: f64, generation: u64) -> Self {
         let n = filters.len();
         Self {
             bank: Box::new(ChannelBank::new(filters)),
             output_bound: vec![output_bound; n],
             envelope_release: vec![DEFAULT_RELEASE; n],
+            group_of: vec![0; n],
+            warm_up: 0,
+            delay: Box::new(DelayLines::new(&vec![0; n])),
             generation,
         }
+    }
+
+    /// The same set, declaring that channel c's filter delays by `latency[c]` samples.
+    pub fn with_latency(mut self, latency: Vec<usize>) -> Self {
+        let mut latency = latency;
+        latency.resize(self.channel_count(), 0);
+        self.delay = Box::new(DelayLines::new(&latency));
+        self
+    }
+
+    /// The same set with these linked groups (group number per channel).
+    pub fn with_channel_groups(mut self, group_of: Vec<usize>) -> Self {
+        let mut group_of = group_of;
+        group_of.resize(self.channel_count(), 0);
+        self.group_of = group_of;
+        self
+    }
+
+    /// The same set, asking for `samples` of warm-up before it is crossfaded in.
+    pub fn with_warm_up(mut self, samples: usize) -> Self {
+        self.warm_up = samples;
+        self
     }
 
     pub fn channel_count(&self) -> usize {
@@ -112,6 +160,21 @@ impl Equalizer {
     /// Σ|g[n]| of channel `channel`'s inverse.
     pub fn output_bound(&self, channel: usize) -> f64 {
         self.output_bound.get(channel).copied().unwrap_or(1.0)
+    }
+
+    /// Samples channel `channel`'s filter delays on purpose (0 for an absent channel).
+    pub fn latency(&self, channel: usize) -> usize {
+        self.delay.latency(channel)
+    }
+
+    /// The linked group channel `channel` belongs to.
+    pub fn group_of(&self, channel: usize) -> usize {
+        self.group_of.get(channel).copied().unwrap_or(0)
+    }
+
+    /// Samples of warm-up this set asks for before its crossfade (uncapped).
+    pub fn warm_up_samples(&self) -> usize {
+        self.warm_up
     }
 
     /// Per-sample release of the input envelope for channel `channel`.
@@ -135,6 +198,24 @@ impl Equalizer {
         self.bank.process(input, output);
     }
 
+    /// As [`Equalizer::process_frames`], and runs the bypass delay lines on `delay_input` (the
+    /// live input, while `input` may have channels silenced) into `delayed`.
+    pub fn process_frames_and_delay(
+        &mut self,
+        input: &[f32],
+        delay_input: &[f32],
+        output: &mut [f64],
+        delayed: &mut [f64],
+    ) {
+        self.bank.process(input, output);
+        self.delay.process(delay_input, delayed);
+    }
+
+    /// Clears one channel's filter state (silence in its past).
+    pub fn reset_channel(&mut self, channel: usize) {
+        self.bank.reset_channel(channel);
+    }
+
     /// Filters interleaved frames: `input.len()` must equal `output.len()` and be a multiple of
     /// the channel count (a trailing partial frame is left untouched in `output`). State carries
     /// over between calls, so a signal cut into blocks anywhere gives the same result.
@@ -145,9 +226,10 @@ impl Equalizer {
         self.bank.process_f32(input, output);
     }
 
-    /// Clears every filter's state (silence in the past).
+    /// Clears every filter's state and the delay lines (silence in the past).
     pub fn reset(&mut self) {
         self.bank.reset();
+        self.delay.reset();
     }
 }
 
@@ -158,6 +240,16 @@ const DEFAULT_RELEASE: f64 = 0.999_856;
 fn l1_gain(design: &InverseDesign) -> f64 {
     let h = decayed_impulse_response(&design.inverse.b, &design.inverse.a, 1 << 18);
     h.iter().map(|x| x.abs()).sum::<f64>().max(1e-12)
+}
+
+/// The design's 60 dB decay time in samples (at least one).
+fn decay_samples(design: &InverseDesign) -> usize {
+    let samples = (design.decay_60db_seconds * design.sample_rate).ceil();
+    if samples.is_finite() && samples >= 1.0 {
+        samples as usize
+    } else {
+        1
+    }
 }
 
 /// Envelope release that falls 60 dB over the design's own 60 dB decay time (at least 1 ms

@@ -70,6 +70,9 @@ pub fn engine_pair(
         stats: Arc::clone(&stats),
         shared: Arc::clone(&shared),
     };
+    // Choose the vector unit now (it reads the environment and allocates the first time), so
+    // an engine started in bypass, with no set built yet, never chooses it on the audio thread.
+    crate::realize::kernels::detected_vector_unit();
     let engine = Engine::new(settings, initial.map(Box::new), ends);
     let control = EngineControl {
         to_engine,

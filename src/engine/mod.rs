@@ -7,10 +7,13 @@
 //! runaway filters, and counts what it did in lock-free [`EngineStats`].
 
 mod clip;
+mod delay_lines;
 mod denormals;
 mod equalizer;
 mod events;
 mod handoff;
+mod input_faults;
+mod runaway_watch;
 mod runner;
 mod settings;
 mod stats;
@@ -21,5 +24,8 @@ pub use equalizer::{EngineError, Equalizer};
 pub use events::EngineEvent;
 pub use handoff::{engine_pair, EngineControl, EVENT_CAPACITY, INBOX_CAPACITY, RETURN_CAPACITY};
 pub use runner::Engine;
-pub use settings::{ClipPolicy, EngineSettings, Fallback, ENVELOPE_FLOOR, FULL_SCALE};
+pub use settings::{
+    ClipPolicy, EngineSettings, Fallback, ENVELOPE_FLOOR, FULL_SCALE, INPUT_CEILING,
+    LOWEST_AUDIO_HZ, WARM_UP_CAP_SECONDS,
+};
 pub use stats::{EngineStats, StatsSnapshot, TIME_BUCKETS};

@@ -22,7 +22,26 @@ pub struct EngineSettings {
     pub fallback: Fallback,
     /// Release time of the gain-reduction clip policy.
     pub gain_release_samples: usize,
+    /// How long a channel's over-limit level is held: half a period of the lowest audio
+    /// frequency ([`LOWEST_AUDIO_HZ`]), so a runaway oscillating at any audio frequency stays
+    /// over between its peaks and the hold time counts from its first peak over the limit.
+    pub runaway_peak_hold_samples: usize,
+    /// Longest warm-up of an incoming set on the live input before its crossfade
+    /// ([`WARM_UP_CAP_SECONDS`]); a set asks for its own 60 dB decay time.
+    pub warm_up_cap_samples: usize,
 }
+
+/// Lowest frequency the runaway guard's peak hold is sized for (common practice: the lower
+/// limit of hearing).
+pub const LOWEST_AUDIO_HZ: f64 = 20.0;
+
+/// Cap on an incoming set's warm-up: a reload never waits longer than this to start its
+/// crossfade, whatever the set's decay time.
+pub const WARM_UP_CAP_SECONDS: f64 = 0.5;
+
+/// Input beyond ±this (+60 dBFS) is not audio from any converter: it is an input fault like a
+/// NaN, replaced by silence before the filters see it.
+pub const INPUT_CEILING: f32 = 1000.0;
 
 /// Full scale of float audio.
 pub const FULL_SCALE: f32 = 1.0;
@@ -50,6 +69,9 @@ impl EngineSettings {
             instability_hold_samples: samples(options.instability_hold_ms),
             fallback: options.fallback,
             gain_release_samples: samples(options.gain_release_ms),
+            runaway_peak_hold_samples: ((sample_rate / (2.0 * LOWEST_AUDIO_HZ)).round() as usize)
+                .max(1),
+            warm_up_cap_samples: (WARM_UP_CAP_SECONDS * sample_rate).round() as usize,
         }
     }
 }

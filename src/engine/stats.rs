@@ -24,6 +24,12 @@ pub struct EngineStats {
     pub non_finite_trips: AtomicU64,
     pub fallbacks_last_good: AtomicU64,
     pub fallbacks_bypass: AtomicU64,
+    /// Input samples that were not audio (NaN, ±∞, or beyond ±[`super::INPUT_CEILING`]) and
+    /// were replaced by silence before the filters saw them; of those, the non-finite ones.
+    pub input_faults: AtomicU64,
+    pub input_faults_non_finite: AtomicU64,
+    /// Channels now playing a fallback (the last good set or bypass) after a guard trip.
+    pub channels_on_fallback: AtomicU64,
     pub swaps_started: AtomicU64,
     pub swaps_completed: AtomicU64,
     /// Filter sets that could not be handed back (return queue full) and were kept for later.
@@ -55,6 +61,9 @@ impl Default for EngineStats {
             non_finite_trips: AtomicU64::new(0),
             fallbacks_last_good: AtomicU64::new(0),
             fallbacks_bypass: AtomicU64::new(0),
+            input_faults: AtomicU64::new(0),
+            input_faults_non_finite: AtomicU64::new(0),
+            channels_on_fallback: AtomicU64::new(0),
             swaps_started: AtomicU64::new(0),
             swaps_completed: AtomicU64::new(0),
             return_queue_full: AtomicU64::new(0),
@@ -80,6 +89,9 @@ pub struct StatsSnapshot {
     pub non_finite_trips: u64,
     pub fallbacks_last_good: u64,
     pub fallbacks_bypass: u64,
+    pub input_faults: u64,
+    pub input_faults_non_finite: u64,
+    pub channels_on_fallback: u64,
     pub swaps_started: u64,
     pub swaps_completed: u64,
     pub return_queue_full: u64,
@@ -150,6 +162,9 @@ impl EngineStats {
             non_finite_trips: load(&self.non_finite_trips),
             fallbacks_last_good: load(&self.fallbacks_last_good),
             fallbacks_bypass: load(&self.fallbacks_bypass),
+            input_faults: load(&self.input_faults),
+            input_faults_non_finite: load(&self.input_faults_non_finite),
+            channels_on_fallback: load(&self.channels_on_fallback),
             swaps_started: load(&self.swaps_started),
             swaps_completed: load(&self.swaps_completed),
             return_queue_full: load(&self.return_queue_full),

@@ -103,6 +103,7 @@ mod tests {
             source: None,
             sample_rate: 48_000.0,
             channel_count,
+            linked_channels: Vec::new(),
             runtime: Default::default(),
             paths: paths
                 .into_iter()

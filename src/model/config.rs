@@ -138,6 +138,7 @@ pub fn parse_link(text: &str, source: Option<&Path>) -> Result<Link, ConfigError
         sample_rate: link.sample_rate,
         channel_count: link.channel_count,
         paths,
+        linked_channels: link.linked_channels,
         runtime,
     })
 }

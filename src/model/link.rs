@@ -76,6 +76,9 @@ pub struct Link {
     /// Number of audio channels; every index in 0..channel_count has exactly one path.
     pub channel_count: usize,
     pub paths: Vec<Path>,
+    /// Channels the engine's guards act on together beyond each path's own (`[link]
+    /// linked_channels`); see [`Link::channel_groups`].
+    pub linked_channels: Vec<Vec<usize>>,
     /// Devices and engine behaviour for the live service (defaults when the file says nothing).
     pub runtime: RuntimeSettings,
 }
@@ -84,5 +87,49 @@ impl Link {
     /// The path that models audio channel `channel`.
     pub fn path_for_channel(&self, channel: usize) -> Option<&Path> {
         self.paths.iter().find(|p| p.channels.contains(&channel))
+    }
+
+    /// The linked group of every channel, numbered from 0 in order of each group's lowest
+    /// channel. Channels of one path are linked (one model, one measurement: a stereo pair
+    /// described once), and so are the channels of each `linked_channels` list; groups that
+    /// share a channel are one group.
+    pub fn channel_groups(&self) -> Vec<usize> {
+        let n = self.channel_count;
+        // Union–find over the channels, smallest channel as each root.
+        let mut parent: Vec<usize> = (0..n).collect();
+        fn root(parent: &mut [usize], mut c: usize) -> usize {
+            while parent[c] != c {
+                parent[c] = parent[parent[c]];
+                c = parent[c];
+            }
+            c
+        }
+        let lists = self
+            .paths
+            .iter()
+            .map(|p| p.channels.as_slice())
+            .chain(self.linked_channels.iter().map(Vec::as_slice));
+        for list in lists {
+            let mut members = list.iter().copied().filter(|&c| c < n);
+            let Some(first) = members.next() else {
+                continue;
+            };
+            for c in members {
+                let (a, b) = (root(&mut parent, first), root(&mut parent, c));
+                parent[a.max(b)] = a.min(b);
+            }
+        }
+        let mut number = vec![usize::MAX; n];
+        let mut next = 0;
+        (0..n)
+            .map(|c| {
+                let r = root(&mut parent, c);
+                if number[r] == usize::MAX {
+                    number[r] = next;
+                    next += 1;
+                }
+                number[r]
+            })
+            .collect()
     }
 }

@@ -23,7 +23,10 @@ pub fn inverse_set(channel: &TransferFunction, channels: usize, generation: u64)
         .iter()
         .map(|x| x.abs())
         .sum();
+    // As `Equalizer::from_plan` does: the set asks for its own 60 dB decay as warm-up.
+    let warm_up = (design.decay_60db_seconds * 48_000.0).ceil() as usize;
     Equalizer::from_filters(vec![realization.filter; channels], bound, generation)
+        .with_warm_up(warm_up)
 }
 
 /// A deliberately unstable set, built straight from coefficients (the test-only way round
@@ -62,4 +65,33 @@ pub fn echo_line() -> TransferFunction {
 /// A different invertible link: a short resonant line, for swap tests.
 pub fn resonant_line() -> TransferFunction {
     TransferFunction::new(vec![1.0, -0.6, 0.25], vec![1.0, -0.3])
+}
+
+/// Runs `engine` over interleaved `input` in blocks of `block` frames; returns the output.
+pub fn run_engine(
+    engine: &mut redress::engine::Engine,
+    input: &[f32],
+    channels: usize,
+    block: usize,
+) -> Vec<f32> {
+    let mut out = vec![0.0f32; input.len()];
+    for (x, y) in input
+        .chunks(block * channels)
+        .zip(out.chunks_mut(block * channels))
+    {
+        engine.process(x, y);
+    }
+    out
+}
+
+/// A filter of the test door, straight from its difference equation (stable or not).
+pub fn raw_filter(b: Vec<f64>, a: Vec<f64>) -> Filter {
+    Filter::unvalidated_direct_form(b, a)
+}
+
+/// A pure delay of `d` samples as an FIR.
+pub fn delay_filter(d: usize) -> Filter {
+    let mut b = vec![0.0; d + 1];
+    b[d] = 1.0;
+    Filter::unvalidated_direct_form(b, vec![1.0])
 }

@@ -47,6 +47,31 @@ pub struct Service {
     pub log: PathBuf,
 }
 
+/// Starts the service on the paced devices of the private PulseAudio (XDG_RUNTIME_DIR as
+/// tests/audio/start-paced-audio.sh printed it): `input` (interleaved) is what the capture
+/// device delivers; returns the service and the file the playback device records into.
+pub fn start_paced(dir: &Path, config: &Path, input: &[f32]) -> (Service, PathBuf) {
+    let runtime = PathBuf::from(
+        std::env::var_os("XDG_RUNTIME_DIR").expect("XDG_RUNTIME_DIR of the PulseAudio"),
+    );
+    let raw_in = dir.join("capture.raw");
+    let raw_out = dir.join("playback.raw");
+    recording::write_raw(&raw_in, input);
+    let alsa = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/audio/alsa-paced-device.conf");
+    let svc = start(
+        dir,
+        config,
+        &[],
+        &[
+            ("ALSA_CONFIG_PATH", &alsa),
+            ("EQ_TEST_INFILE", &raw_in),
+            ("EQ_TEST_OUTFILE", &raw_out),
+            ("XDG_RUNTIME_DIR", &runtime),
+        ],
+    );
+    (svc, raw_out)
+}
+
 /// Starts `redress run CONFIG ARGS… --socket DIR/status.sock`, stderr to DIR/service.log.
 pub fn start(dir: &Path, config: &Path, args: &[&str], env: &[(&str, &Path)]) -> Service {
     let socket = dir.join("run").join("status.sock");

@@ -6,6 +6,7 @@ use std::sync::Arc;
 use ringbuf::traits::{Observer, Producer};
 use ringbuf::HeapProd;
 
+use super::playout::PlayoutProgress;
 use super::samples::DeviceSample;
 use crate::engine::{Engine, EngineStats};
 
@@ -20,6 +21,7 @@ pub struct CaptureSide {
     output: Box<[f32]>,
     ring: HeapProd<f32>,
     stats: Arc<EngineStats>,
+    playout: Arc<PlayoutProgress>,
 }
 
 impl CaptureSide {
@@ -27,6 +29,7 @@ impl CaptureSide {
         engine: Engine,
         ring: HeapProd<f32>,
         stats: Arc<EngineStats>,
+        playout: Arc<PlayoutProgress>,
         chunk_frames: usize,
     ) -> Self {
         let channels = engine.channels().max(1);
@@ -38,7 +41,13 @@ impl CaptureSide {
             output: vec![0.0; len].into_boxed_slice(),
             ring,
             stats,
+            playout,
         }
+    }
+
+    /// How far the output has got (shared with the playback side and the control thread).
+    pub fn playout(&self) -> Arc<PlayoutProgress> {
+        Arc::clone(&self.playout)
     }
 
     /// The capture callback: converts `data` (interleaved frames), runs the engine on it and
@@ -58,6 +67,8 @@ impl CaptureSide {
             let room = self.ring.vacant_len();
             let fits = n.min(room - room % self.channels);
             let pushed = self.ring.push_slice(&self.output[..fits]);
+            self.playout
+                .record_pushed((pushed / self.channels) as u64, self.engine.fade_out_done());
             let dropped = n - pushed;
             if dropped > 0 {
                 self.stats

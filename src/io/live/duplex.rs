@@ -9,6 +9,7 @@ use super::capture_side::CaptureSide;
 use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
 use super::error::{Direction, LiveError};
 use super::playback_side::PlaybackSide;
+use super::playout::PlayoutProgress;
 use super::ring::{duplex_sides, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
@@ -111,7 +112,12 @@ pub struct DuplexStreams {
     config: DuplexConfig,
     input_errors: Arc<StreamErrorCounter>,
     output_errors: Arc<StreamErrorCounter>,
+    playout: Arc<PlayoutProgress>,
 }
+
+/// Device buffering assumed when the playback device reports no delay: the ALSA backend keeps
+/// two periods per direction.
+const ASSUMED_DEVICE_PERIODS: u64 = 2;
 
 impl DuplexStreams {
     pub fn config(&self) -> &DuplexConfig {
@@ -124,6 +130,28 @@ impl DuplexStreams {
         StreamErrorCounts {
             input: self.input_errors.tally(),
             output: self.output_errors.tally(),
+        }
+    }
+
+    /// Waits (at most `timeout`) until the engine's fade-out has played: its last frame out of
+    /// the ring and then the device's delay worth of frames after it, so that stopping now cuts
+    /// nothing but silence. Returns whether it got there.
+    pub fn wait_faded_out(&self, timeout: std::time::Duration) -> bool {
+        let started = std::time::Instant::now();
+        loop {
+            let reported = self.playout.device_delay();
+            let tail = if reported > 0 {
+                reported
+            } else {
+                ASSUMED_DEVICE_PERIODS * u64::from(self.config.output_period_frames)
+            };
+            if self.playout.faded_out_through(tail) {
+                return true;
+            }
+            if started.elapsed() >= timeout {
+                return false;
+            }
+            std::thread::sleep(std::time::Duration::from_millis(5));
         }
     }
 
@@ -165,13 +193,21 @@ pub fn start_duplex(
 
     let period = input_choice.period_frames.max(output_choice.period_frames) as usize;
     let (capture, playback, ring) = duplex_sides(engine, stats, period);
+    let playout = capture.playout();
 
     let input_errors = Arc::new(StreamErrorCounter::default());
     let output_errors = Arc::new(StreamErrorCounter::default());
+    let rate = request.sample_rate;
     let input = build_capture(&input_device, input_choice, capture, &input_errors)
         .map_err(|e| LiveError::backend(format!("opening capture device `{input_label}`"), e))?;
-    let output = build_playback(&output_device, output_choice, playback, &output_errors)
-        .map_err(|e| LiveError::backend(format!("opening playback device `{output_label}`"), e))?;
+    let output = build_playback(
+        &output_device,
+        output_choice,
+        playback,
+        &output_errors,
+        rate,
+    )
+    .map_err(|e| LiveError::backend(format!("opening playback device `{output_label}`"), e))?;
     input
         .play()
         .map_err(|e| LiveError::backend(format!("starting capture on `{input_label}`"), e))?;
@@ -196,6 +232,7 @@ pub fn start_duplex(
         config,
         input_errors,
         output_errors,
+        playout,
     })
 }
 
@@ -294,23 +331,33 @@ fn build_playback(
     choice: Choice,
     playback: PlaybackSide,
     errors: &Arc<StreamErrorCounter>,
+    rate: u32,
 ) -> Result<cpal::Stream, cpal::Error> {
     fn build<T: DeviceSample>(
         device: &cpal::Device,
         choice: Choice,
         mut playback: PlaybackSide,
         errors: &Arc<StreamErrorCounter>,
+        rate: u32,
     ) -> Result<cpal::Stream, cpal::Error> {
         device.build_output_stream::<T, _, _>(
             choice.config,
-            move |data: &mut [T], _: &cpal::OutputCallbackInfo| playback.on_output(data),
+            move |data: &mut [T], info: &cpal::OutputCallbackInfo| {
+                playback.on_output(data);
+                // How long until this callback's first frame plays: what a stop must wait for
+                // after the fade-out's last frame has been written.
+                let t = info.timestamp();
+                if let Some(delay) = t.playback.checked_duration_since(t.callback) {
+                    playback.record_device_delay(delay, rate);
+                }
+            },
             on_error(errors),
             None,
         )
     }
     match choice.format {
-        DeviceFormat::F32 => build::<f32>(device, choice, playback, errors),
-        DeviceFormat::I16 => build::<i16>(device, choice, playback, errors),
-        DeviceFormat::I32 => build::<i32>(device, choice, playback, errors),
+        DeviceFormat::F32 => build::<f32>(device, choice, playback, errors, rate),
+        DeviceFormat::I16 => build::<i16>(device, choice, playback, errors, rate),
+        DeviceFormat::I32 => build::<i32>(device, choice, playback, errors, rate),
     }
 }

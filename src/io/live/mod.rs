@@ -18,17 +18,25 @@ mod devices;
 mod duplex;
 mod error;
 mod playback_side;
+mod playout;
+mod published_count;
 pub mod ring;
 mod round_trip;
 mod samples;
 mod stream_choice;
 mod stream_errors;
 
+/// The atomics [`published_count`] is written over (a model checker's in its ordering test).
+mod atomics {
+    pub use std::sync::atomic::{AtomicU64, AtomicU8, Ordering};
+}
+
 pub use capture_side::CaptureSide;
 pub use devices::{list_devices, DEFAULT_DEVICE};
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
 pub use error::{Direction, LiveError};
 pub use playback_side::PlaybackSide;
+pub use playout::PlayoutProgress;
 pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
 pub use round_trip::{record_loop, LoopRecording, LoopRequest};
 pub use samples::{DeviceFormat, DeviceSample};

@@ -6,6 +6,7 @@ use std::sync::Arc;
 use ringbuf::traits::{Consumer, Observer};
 use ringbuf::HeapCons;
 
+use super::playout::PlayoutProgress;
 use super::samples::DeviceSample;
 use crate::engine::EngineStats;
 
@@ -16,12 +17,14 @@ pub struct PlaybackSide {
     scratch: Box<[f32]>,
     ring: HeapCons<f32>,
     stats: Arc<EngineStats>,
+    playout: Arc<PlayoutProgress>,
 }
 
 impl PlaybackSide {
     pub(super) fn new(
         ring: HeapCons<f32>,
         stats: Arc<EngineStats>,
+        playout: Arc<PlayoutProgress>,
         channels: usize,
         chunk_frames: usize,
     ) -> Self {
@@ -31,6 +34,16 @@ impl PlaybackSide {
             scratch: vec![0.0; chunk_frames.max(1) * channels].into_boxed_slice(),
             ring,
             stats,
+            playout,
+        }
+    }
+
+    /// Notes the delay the device reported for a callback (from its timestamps): how long
+    /// until the first frame written in it plays. Allocates nothing.
+    pub fn record_device_delay(&self, delay: std::time::Duration, sample_rate: u32) {
+        let frames = (delay.as_secs_f64() * f64::from(sample_rate)).ceil();
+        if frames.is_finite() && frames >= 0.0 {
+            self.playout.record_device_delay(frames as u64);
         }
     }
 
@@ -39,11 +52,13 @@ impl PlaybackSide {
     /// counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks nothing.
     pub fn on_output<T: DeviceSample>(&mut self, data: &mut [T]) {
         let mut silence = 0usize;
+        let mut taken = 0usize;
         for chunk in data.chunks_mut(self.scratch.len()) {
             let want = chunk.len() - chunk.len() % self.channels;
             let ready = self.ring.occupied_len();
             let take = want.min(ready - ready % self.channels);
             let got = self.ring.pop_slice(&mut self.scratch[..take]);
+            taken += got;
             for (d, s) in chunk.iter_mut().zip(&self.scratch[..got]) {
                 *d = T::from_f32(*s);
             }
@@ -52,6 +67,7 @@ impl PlaybackSide {
             }
             silence += chunk.len() - got;
         }
+        self.playout.record_played((taken / self.channels) as u64);
         if silence > 0 {
             self.stats
                 .output_underruns

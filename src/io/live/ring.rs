@@ -18,6 +18,7 @@ use ringbuf::HeapRb;
 
 use super::capture_side::CaptureSide;
 use super::playback_side::PlaybackSide;
+use super::playout::PlayoutProgress;
 use crate::engine::{Engine, EngineStats};
 
 /// Periods of silence the ring starts with.
@@ -65,7 +66,15 @@ pub fn duplex_sides(
     let silence = vec![0.0f32; plan.prefill_frames() * plan.channels];
     let prefilled = producer.push_slice(&silence);
     debug_assert_eq!(prefilled, silence.len());
-    let capture = CaptureSide::new(engine, producer, Arc::clone(&stats), plan.period_frames);
-    let playback = PlaybackSide::new(consumer, stats, plan.channels, plan.period_frames);
+    let playout = Arc::new(PlayoutProgress::default());
+    playout.record_pushed(plan.prefill_frames() as u64, false);
+    let capture = CaptureSide::new(
+        engine,
+        producer,
+        Arc::clone(&stats),
+        Arc::clone(&playout),
+        plan.period_frames,
+    );
+    let playback = PlaybackSide::new(consumer, stats, playout, plan.channels, plan.period_frames);
     (capture, playback, plan)
 }

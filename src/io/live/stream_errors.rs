@@ -3,8 +3,8 @@
 //! The error callback runs on the backend's audio thread, so it may not log or lock; it stores
 //! a small integer code and the control thread turns it into words when it reports.
 
+use super::published_count::PublishedCount;
 use std::fmt;
-use std::sync::atomic::{AtomicU64, AtomicU8, Ordering};
 
 /// The kinds of stream error worth telling apart in a report.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -61,12 +61,11 @@ impl fmt::Display for StreamErrorKind {
     }
 }
 
-/// Shared between a stream's error callback (writer) and the control thread (reader).
+/// Shared between a stream's error callback (writer) and the control thread (reader): a
+/// reader that sees an error counted also sees its kind (see [`PublishedCount`]).
 #[derive(Debug, Default)]
 pub struct StreamErrorCounter {
-    count: AtomicU64,
-    /// 0: none yet; otherwise a [`StreamErrorKind`] code.
-    last_kind: AtomicU8,
+    errors: PublishedCount,
 }
 
 /// A plain copy of one stream's error counter.
@@ -77,16 +76,16 @@ pub struct StreamErrorTally {
 }
 
 impl StreamErrorCounter {
-    /// Called from the error callback: two relaxed atomic stores, nothing else.
+    /// Called from the error callback: two atomic operations, nothing else.
     pub fn record(&self, kind: StreamErrorKind) {
-        self.count.fetch_add(1, Ordering::Relaxed);
-        self.last_kind.store(kind as u8, Ordering::Relaxed);
+        self.errors.record(kind as u8);
     }
 
     pub fn tally(&self) -> StreamErrorTally {
+        let (count, code) = self.errors.read();
         StreamErrorTally {
-            count: self.count.load(Ordering::Relaxed),
-            last_kind: StreamErrorKind::from_code(self.last_kind.load(Ordering::Relaxed)),
+            count,
+            last_kind: StreamErrorKind::from_code(code),
         }
     }
 }

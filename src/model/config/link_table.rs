@@ -1,6 +1,8 @@
 //! The `[link]` table: sample rate, channel count, circle tolerance, coefficient precision.
 
-use super::schema::{CHANNEL_COUNT, CIRCLE_TOLERANCE, LINK, LINK_TABLE, PRECISION, SAMPLE_RATE_HZ};
+use super::schema::{
+    CHANNEL_COUNT, CIRCLE_TOLERANCE, LINK, LINKED_CHANNELS, LINK_TABLE, PRECISION, SAMPLE_RATE_HZ,
+};
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
 use crate::model::{
@@ -17,6 +19,8 @@ pub(crate) struct LinkSettings<'a> {
     pub channel_count: usize,
     pub circle_tolerance: f64,
     pub precision: CoefficientPrecision,
+    /// Lists of channels the engine's guards act on together (beyond each path's own).
+    pub linked_channels: Vec<Vec<usize>>,
     /// Where `channel_count` is written, for errors about channels no path covers.
     pub channel_count_node: Node<'a>,
 }
@@ -90,11 +94,73 @@ pub(crate) fn read_link<'a>(root: &Table<'a>) -> Result<LinkSettings<'a>, Config
         ])?,
     };
 
+    let linked_channels = match link.get(LINKED_CHANNELS) {
+        None => Vec::new(),
+        Some(node) => read_linked_channels(&node, count as usize)?,
+    };
+
     Ok(LinkSettings {
         sample_rate,
         channel_count: count as usize,
         circle_tolerance,
         precision,
+        linked_channels,
         channel_count_node: count_node,
     })
+}
+
+/// `linked_channels = [[0, 1], [2, 3]]`: each list is channels that stay together when a guard
+/// acts (a stereo pair described by two paths, say). Each list names at least two channels,
+/// each once and in range.
+fn read_linked_channels(
+    node: &Node<'_>,
+    channel_count: usize,
+) -> Result<Vec<Vec<usize>>, ConfigError> {
+    let mut lists = Vec::new();
+    for list_node in node.array()? {
+        let members = list_node.array()?;
+        if members.len() < 2 {
+            return Err(list_node.fail(
+                ConfigErrorKind::OutOfRange,
+                "a list of linked channels needs at least two channels",
+                "write each group as a list of two or more channels, e.g. linked_channels = [[0, 1]]",
+            ));
+        }
+        let group = read_channel_indices(&members, channel_count, "this group")?;
+        lists.push(group);
+    }
+    Ok(lists)
+}
+
+/// Zero-based channel numbers, each in range and listed once `within` (a path, a group).
+pub(crate) fn read_channel_indices(
+    nodes: &[Node<'_>],
+    channel_count: usize,
+    within: &str,
+) -> Result<Vec<usize>, ConfigError> {
+    let mut channels = Vec::with_capacity(nodes.len());
+    for n in nodes {
+        let c = n.integer()?;
+        if c < 0 || c >= channel_count as i64 {
+            return Err(n.fail(
+                ConfigErrorKind::OutOfRange,
+                format!(
+                    "channel {c} does not exist: [link] has channel_count = {channel_count}, so \
+                     the channels are 0 to {}",
+                    channel_count - 1
+                ),
+                "channels are numbered from 0; use one in range or raise channel_count",
+            ));
+        }
+        let c = c as usize;
+        if channels.contains(&c) {
+            return Err(n.fail(
+                ConfigErrorKind::ChannelTwice,
+                format!("channel {c} is listed twice in {within}"),
+                "list each channel once",
+            ));
+        }
+        channels.push(c);
+    }
+    Ok(channels)
 }

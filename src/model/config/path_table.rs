@@ -4,7 +4,7 @@ use super::difference_equation::read_difference_equation;
 use super::echoes::read_echoes;
 use super::finish_channel::{finish_channel, inverse_order};
 use super::inverse_table::read_inverse;
-use super::link_table::LinkSettings;
+use super::link_table::{read_channel_indices, LinkSettings};
 use super::schema::{
     CHANNELS, DIFFERENCE_EQUATION, ECHOES, INVERSE, LABEL, PATH_TABLE, ROOTS, SECTIONS, STRUCTURE,
 };
@@ -53,31 +53,7 @@ pub(crate) fn read_path<'a>(
             "list the zero-based audio channels it models, e.g. channels = [0]",
         ));
     }
-    let mut channels = Vec::with_capacity(channel_nodes.len());
-    for n in &channel_nodes {
-        let c = n.integer()?;
-        if c < 0 || c >= link.channel_count as i64 {
-            return Err(n.fail(
-                ConfigErrorKind::OutOfRange,
-                format!(
-                    "channel {c} does not exist: [link] has channel_count = {}, so the channels \
-                     are 0 to {}",
-                    link.channel_count,
-                    link.channel_count - 1
-                ),
-                "channels are numbered from 0; use one in range or raise channel_count",
-            ));
-        }
-        let c = c as usize;
-        if channels.contains(&c) {
-            return Err(n.fail(
-                ConfigErrorKind::ChannelTwice,
-                format!("channel {c} is listed twice in this path"),
-                "list each channel once",
-            ));
-        }
-        channels.push(c);
-    }
+    let channels = read_channel_indices(&channel_nodes, link.channel_count, "this path")?;
 
     let requested_structure = match table.get(STRUCTURE) {
         None => None,

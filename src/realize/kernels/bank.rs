@@ -93,6 +93,11 @@ fn prefers_lanes(shape: LaneShape, used: usize, lanes: usize) -> bool {
 impl ChannelBank {
     /// One filter per channel, in channel order.
     pub fn new(filters: Vec<Filter>) -> Self {
+        // The unit is chosen here, on the control side, whatever the filters: the first choice
+        // reads the environment (`REDRESS_KERNELS`), which allocates, and must never fall to
+        // the first block the audio thread runs (mono sets and direct forms up to order 8 would
+        // otherwise not ask before then).
+        detected_vector_unit();
         let channels = filters.len();
         let mut by_shape: BTreeMap<LaneShape, Vec<usize>> = BTreeMap::new();
         for (c, f) in filters.iter().enumerate() {
@@ -280,6 +285,19 @@ impl ChannelBank {
             Some(Unit::Four { lanes, .. }) => lanes.step_lane(lane, x),
             Some(Unit::Eight { lanes, .. }) => lanes.step_lane(lane, x),
             None => x,
+        }
+    }
+
+    /// Clears one channel's state (an absent channel is ignored).
+    pub fn reset_channel(&mut self, channel: usize) {
+        let Some(&(u, lane)) = self.place.get(channel) else {
+            return;
+        };
+        match self.units.get_mut(u) {
+            Some(Unit::Alone { filter, .. }) => filter.reset(),
+            Some(Unit::Four { lanes, .. }) => lanes.reset_lane(lane),
+            Some(Unit::Eight { lanes, .. }) => lanes.reset_lane(lane),
+            None => {}
         }
     }
 

@@ -90,6 +90,14 @@ impl<const L: usize> LaneDirectForm<L> {
     pub fn reset(&mut self) {
         self.state.fill([0.0; L]);
     }
+
+    /// Clears one lane's state (the others untouched).
+    pub fn reset_lane(&mut self, lane: usize) {
+        let lane = lane.min(L - 1);
+        for s in &mut self.state {
+            s[lane] = 0.0;
+        }
+    }
 }
 
 /// Any order ≥ 1, the state in memory: the portable build, and orders past

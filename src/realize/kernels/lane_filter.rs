@@ -93,4 +93,12 @@ impl<const L: usize> LaneFilter<L> {
             LaneFilter::LatticeLadder(f) => f.reset(),
         }
     }
+
+    pub fn reset_lane(&mut self, lane: usize) {
+        match self {
+            LaneFilter::DirectForm2T(f) => f.reset_lane(lane),
+            LaneFilter::Sections(f) => f.reset_lane(lane),
+            LaneFilter::LatticeLadder(f) => f.reset_lane(lane),
+        }
+    }
 }

@@ -90,4 +90,12 @@ impl<const L: usize> LaneLattice<L> {
     pub fn reset(&mut self) {
         self.g.fill([0.0; L]);
     }
+
+    /// Clears one lane's state (the others untouched).
+    pub fn reset_lane(&mut self, lane: usize) {
+        let lane = lane.min(L - 1);
+        for g in &mut self.g {
+            g[lane] = 0.0;
+        }
+    }
 }

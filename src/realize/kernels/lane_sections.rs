@@ -112,6 +112,15 @@ impl<const L: usize> LaneSections<L> {
     pub fn reset(&mut self) {
         self.state.fill([[0.0; L]; 2]);
     }
+
+    /// Clears one lane's state (the others untouched).
+    pub fn reset_lane(&mut self, lane: usize) {
+        let lane = lane.min(L - 1);
+        for s in &mut self.state {
+            s[0][lane] = 0.0;
+            s[1][lane] = 0.0;
+        }
+    }
 }
 
 /// `G` sections (exactly: the slices' length) over every frame, in place; coefficients and
