@@ -6,7 +6,10 @@
 //!   sample n − k inside the block, no latency added);
 //! - [`ChannelBank`]: many channels, those with filters of one shape side by side in vector
 //!   lanes (struct of arrays over 4 or 8 channels);
-//! - [`dispatch`]: compiles them for AVX2 / AVX-512 as well and picks at run time.
+//! - [`dispatch`]: compiles them for AVX2 / AVX-512 as well and picks at run time;
+//! - `sparse_block` (sparse recursions, a tap at a time over runs shorter than the shortest
+//!   recursive delay), `fir_head` and `spectral_mac` (the partitioned convolution's direct-form
+//!   head and its frequency-domain products): these filters always run alone, never in lanes.
 //!
 //! Every path performs each filter's own operations in its own order, so the results are the
 //! same to the bit as the per-sample path, except second-order sections on CPUs with FMA
@@ -16,6 +19,7 @@
 mod bank;
 mod direct_form_block;
 pub mod dispatch;
+pub(crate) mod fir_head;
 mod lane_direct_form;
 mod lane_filter;
 mod lane_lattice;
@@ -24,6 +28,8 @@ mod lattice_block;
 mod mono;
 mod sections_wavefront;
 mod simd_wavefront;
+pub(crate) mod sparse_block;
+pub(crate) mod spectral_mac;
 mod vector;
 
 #[cfg(test)]
