@@ -6,6 +6,11 @@
 //! samples/s. A last group runs a decaying tail (silence after an impulse, through the
 //! subnormal range) against noise, with and without flush-to-zero.
 //!
+//! Two more groups time the structures the pipeline picks by cost: `long_fir/TAPS` (an invented
+//! FIR as a partitioned convolution against the direct form's tapped delay line, 1 and 8
+//! channels, 64-frame blocks) and `echo/right_leg` (the example echo line's inverse as a sparse
+//! recursion against sections and the lattice).
+//!
 //! `cargo bench --bench kernels` runs everything (a few minutes); a filter argument narrows it,
 //! e.g. `cargo bench --bench kernels -- 'sections/order32'`.
 
@@ -51,6 +56,8 @@ fn structure_name(s: Structure) -> &'static str {
         Structure::DirectForm2T => "direct_form",
         Structure::Sections => "sections",
         Structure::LatticeLadder => "lattice",
+        Structure::SparseRecursion => "sparse",
+        Structure::PartitionedConvolution => "partitioned",
     }
 }
 
@@ -177,5 +184,94 @@ fn decaying_tail(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, kernels, decaying_tail);
+/// Long FIRs: partitioned convolution against the direct form, in engine-sized blocks.
+fn long_fir(c: &mut Criterion) {
+    for taps in [1024usize, 4096, 16_384] {
+        let fir = TransferFunction::new(redress::bench::invented_long_fir(taps), vec![1.0]);
+        let mut group = c.benchmark_group(format!("long_fir/{taps}"));
+        group
+            .warm_up_time(Duration::from_millis(300))
+            .measurement_time(Duration::from_secs(1))
+            .sample_size(10);
+        for channels in [1usize, 8] {
+            let input = noise(FRAMES, channels);
+            let mut output = vec![0.0f32; input.len()];
+            group.throughput(Throughput::Elements((FRAMES * channels) as u64));
+            for structure in [Structure::PartitionedConvolution, Structure::DirectForm2T] {
+                let filter = realize(&fir, structure, CoefficientPrecision::F32)
+                    .expect("FIR realizes")
+                    .filter;
+                let mut bank = ChannelBank::new(vec![filter; channels]);
+                let step = 64 * channels;
+                group.bench_function(
+                    BenchmarkId::new(structure_name(structure), format!("ch{channels}/block64")),
+                    |b| {
+                        b.iter(|| {
+                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                                bank.process_f32(x, y);
+                            }
+                            black_box(&output);
+                        })
+                    },
+                );
+            }
+        }
+        group.finish();
+    }
+}
+
+/// The example echo line's right leg (configs/echo_line.toml): its exact inverse, a recursion
+/// of order 197 with three recursive taps, in the structures that can run it.
+fn echo(c: &mut Criterion) {
+    let mut a = vec![0.0; 198];
+    a[0] = 1.0;
+    a[41] = 0.25 / 0.9;
+    a[120] = -0.17 / 0.9;
+    a[197] = 0.08 / 0.9;
+    let inverse = TransferFunction::new(vec![1.0 / 0.9], a);
+    let mut group = c.benchmark_group("echo/right_leg");
+    group
+        .warm_up_time(Duration::from_millis(200))
+        .measurement_time(Duration::from_millis(600))
+        .sample_size(10);
+    for channels in [1usize, 8] {
+        let input = noise(FRAMES, channels);
+        let mut output = vec![0.0f32; input.len()];
+        group.throughput(Throughput::Elements((FRAMES * channels) as u64));
+        for structure in [
+            Structure::SparseRecursion,
+            Structure::Sections,
+            Structure::LatticeLadder,
+        ] {
+            let Ok(r) = realize(&inverse, structure, CoefficientPrecision::F32) else {
+                eprintln!(
+                    "skipping {}: it does not realize",
+                    structure_name(structure)
+                );
+                continue;
+            };
+            for block in [64usize, 256] {
+                let mut bank = ChannelBank::new(vec![r.filter.clone(); channels]);
+                let step = block * channels;
+                group.bench_function(
+                    BenchmarkId::new(
+                        structure_name(structure),
+                        format!("ch{channels}/block{block}"),
+                    ),
+                    |b| {
+                        b.iter(|| {
+                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                                bank.process_f32(x, y);
+                            }
+                            black_box(&output);
+                        })
+                    },
+                );
+            }
+        }
+    }
+    group.finish();
+}
+
+criterion_group!(benches, kernels, decaying_tail, long_fir, echo);
 criterion_main!(benches);

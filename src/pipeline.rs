@@ -258,8 +258,8 @@ pub fn sparse_pays(inverse: &TransferFunction) -> Option<String> {
     let b = trim_trailing_zeros(&inverse.b);
     let a = trim_trailing_zeros(&inverse.a);
     let order = b.len().max(a.len()).saturating_sub(1);
-    let touched = b.iter().filter(|c| **c != 0.0).count()
-        + a.iter().skip(1).filter(|c| **c != 0.0).count();
+    let touched =
+        b.iter().filter(|c| **c != 0.0).count() + a.iter().skip(1).filter(|c| **c != 0.0).count();
     let dense = 2 * order + 1;
     (order >= 4 && 4 * touched <= dense).then(|| {
         format!(
@@ -358,13 +358,19 @@ mod tests {
             let b: Vec<f64> = (0..n).map(|i| 0.9f64.powi(i as i32 % 50) + 0.01).collect();
             TransferFunction::new(b, vec![1.0])
         };
-        let long = realize_safely(&taps(PARTITIONED_MIN_TAPS), &path_asking(Structure::Sections));
+        let long = realize_safely(
+            &taps(PARTITIONED_MIN_TAPS),
+            &path_asking(Structure::Sections),
+        );
         assert_eq!(
             long.result.unwrap().structure,
             Structure::PartitionedConvolution
         );
         assert!(long.switched.is_some() && long.refused.is_empty());
-        let short = realize_safely(&taps(PARTITIONED_MIN_TAPS - 1), &path_asking(Structure::Sections));
+        let short = realize_safely(
+            &taps(PARTITIONED_MIN_TAPS - 1),
+            &path_asking(Structure::Sections),
+        );
         assert_eq!(short.result.unwrap().structure, Structure::DirectForm2T);
     }
 }

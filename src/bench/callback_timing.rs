@@ -106,7 +106,8 @@ pub fn time_callbacks(
     timing
 }
 
-/// Nanoseconds this thread has run on a processor (the first field of Linux's schedstat).
+/// Nanoseconds this thread has run on a processor (the first field of Linux's schedstat,
+/// brought up to date at scheduler ticks: good to a tick over a run of seconds).
 fn thread_cpu_ns() -> Option<u64> {
     std::fs::read_to_string("/proc/thread-self/schedstat")
         .ok()?

@@ -17,9 +17,10 @@ use serde::Serialize;
 use crate::realize::kernels::dispatch::{with_widest_vectors, Arithmetic, Kernel};
 use crate::realize::kernels::{detected_vector_unit, VectorUnit};
 
-/// Steps per timed loop; the best of `REPEATS` runs is kept (the least disturbed).
-const STEPS: u64 = 20_000_000;
-const REPEATS: usize = 5;
+/// Steps per timed loop (a few milliseconds, shorter than a scheduler's time slice); the best
+/// of `REPEATS` runs is kept (the least disturbed).
+const STEPS: u64 = 1_000_000;
+const REPEATS: usize = 41;
 
 /// Measured latencies of dependent operations.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -40,6 +41,9 @@ pub struct ChainCalibration {
     pub fused: bool,
 }
 
+/// Wall-clock time per step of the fastest run: runs are kept shorter than a scheduler's time
+/// slice, so on a shared machine some run through undisturbed. (The thread's processor time
+/// from schedstat is only brought up to date at scheduler ticks: too coarse for a run this short.)
 fn best_ns_per_step(run: impl Fn() -> f64) -> f64 {
     let mut best = f64::INFINITY;
     for _ in 0..REPEATS {
@@ -82,7 +86,11 @@ impl Kernel for MultiplyAddChain {
     type Output = f64;
     #[inline(always)]
     fn run<A: Arithmetic>(self) -> f64 {
-        let (mut x, a, b) = (black_box(0.5f64), black_box(0.999_999f64), black_box(1e-7f64));
+        let (mut x, a, b) = (
+            black_box(0.5f64),
+            black_box(0.999_999f64),
+            black_box(1e-7f64),
+        );
         for _ in 0..STEPS {
             x = A::multiply_add(a, x, b);
         }

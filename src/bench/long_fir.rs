@@ -135,10 +135,19 @@ pub fn render_long_firs(rows: &[LongFirTiming]) -> String {
     );
     for r in rows {
         let p = &r.partitioned;
-        let share = |t: &CallbackTiming| t.cpu_share_pct.map_or("—".to_string(), |v| format!("{v:.2}"));
+        let share = |t: &CallbackTiming| {
+            t.cpu_share_pct
+                .map_or("—".to_string(), |v| format!("{v:.2}"))
+        };
         let (dp50, dmax, dcore) = r.direct_form.as_ref().map_or(
             ("—".to_string(), "—".to_string(), "—".to_string()),
-            |d| (format!("{:.1}", d.p50_us), format!("{:.1}", d.max_us), share(d)),
+            |d| {
+                (
+                    format!("{:.1}", d.p50_us),
+                    format!("{:.1}", d.max_us),
+                    share(d),
+                )
+            },
         );
         let _ = writeln!(
             s,

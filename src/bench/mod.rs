@@ -106,7 +106,13 @@ pub fn bench_link(
     let block_frames = block_frames.max(1);
     let blocks = options.blocks.max(1);
     let time = |eq: &Equalizer, l: &Link| {
-        time_callbacks(eq.clone(), &l.runtime.engine, l.sample_rate, block_frames, blocks)
+        time_callbacks(
+            eq.clone(),
+            &l.runtime.engine,
+            l.sample_rate,
+            block_frames,
+            blocks,
+        )
     };
     let mut callback = time(&equalizer, link);
     let baseline = match &options.baseline {

@@ -9,8 +9,11 @@
 //! - second-order sections, wavefront (fused where FMA exists): section k works on sample n − k,
 //!   all sections at once; each step waits on one section's y → s₀ → y, two multiply-adds,
 //!   whatever K (while the sections fit the vector registers);
-//! - lattice–ladder: f runs down all M stages within a sample (f ← f − k·g, the product ready
-//!   beforehand): M additions;
+//! - lattice–ladder: f runs down all M stages within a sample, but sample n + 1 may start a stage
+//!   as soon as sample n has left the one below it, so the recurrence is the loop
+//!   f_{m−1}(n) → g_m(n) = k·f + g → f_m(n + 1) = f − k·g → f_{m−1}(n + 1): two multiplications
+//!   and three additions, whatever M (the stages' own work, six operations each, is then what
+//!   limits a long lattice: throughput, not the chain);
 //! - channels in lanes: the same chain per frame, shared by every channel in a register (8 with
 //!   AVX-512, 4 with AVX2), so the floor per channel is the chain over that count;
 //! - sparse recursion: y(n) waits on y(n − d₁) only (d₁ the shortest recursive delay), so a run
@@ -29,8 +32,8 @@ use crate::realize::kernels::{detected_vector_unit, ChannelBank, VectorUnit};
 use crate::realize::{realize, Filter};
 
 /// Samples per channel per timed run; the best of `REPEATS` runs is kept.
-const SAMPLES: usize = 1 << 15;
-const REPEATS: usize = 7;
+const SAMPLES: usize = 1 << 14;
+const REPEATS: usize = 15;
 
 /// One kernel's cost against its chain's floor.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -164,7 +167,7 @@ fn chain(
             filter.order().div_ceil(2),
             "section",
         ),
-        (Structure::LatticeLadder, _) => (filter.order() as f64 * c.add_ns, filter.order(), "stage"),
+        (Structure::LatticeLadder, _) => (2.0 * c.mul_ns + 3.0 * c.add_ns, filter.order(), "stage"),
         (_, Filter::SparseRecursion(s)) => {
             let shortest = s.denominator().first().map_or(1, |t| t.delay).max(1);
             (
@@ -237,7 +240,8 @@ pub fn render_recursion_limits(r: &RecursionLimits) -> String {
         "recursion limits    {} vector unit; clock {:.2} GHz (dependent integer chain)",
         r.vector_unit, c.clock_ghz
     );
-    let _ = writeln!(
+    let _ =
+        writeln!(
         s,
         "  dependent f64     add {:.3} ns ({:.1} cycles), multiply {:.3} ns ({:.1}), multiply-add \
          {:.3} ns ({:.1}, {})",

@@ -26,7 +26,8 @@ pub(crate) struct DominantTap {
 /// The bound when the leading tap dominates (Σ |aₖ| < 1), `None` otherwise.
 pub(crate) fn dominant_tap_bound(recursive: &[SparseTap]) -> Option<DominantTap> {
     let others: f64 = recursive.iter().map(|t| t.coefficient.abs()).sum();
-    if !(others < 1.0) {
+    // NaN taps fail this too.
+    if others.partial_cmp(&1.0) != Some(std::cmp::Ordering::Less) {
         return None;
     }
     if recursive.iter().all(|t| t.coefficient == 0.0) {

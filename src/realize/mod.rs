@@ -34,9 +34,9 @@ mod agreement_tests;
 #[cfg(test)]
 mod filter_tests;
 #[cfg(test)]
-mod quantization_tests;
-#[cfg(test)]
 mod partitioned_tests;
+#[cfg(test)]
+mod quantization_tests;
 #[cfg(test)]
 mod sparse_tests;
 

@@ -146,7 +146,10 @@ impl PartitionedConvolution {
             self.input[at..at + len].copy_from_slice(&input[done..done + len]);
             let out = &mut output[done..done + len];
             convolve_head::<A>(&self.head, &self.input, at, out);
-            for (y, t) in out.iter_mut().zip(&self.tail_out[self.fill..self.fill + len]) {
+            for (y, t) in out
+                .iter_mut()
+                .zip(&self.tail_out[self.fill..self.fill + len])
+            {
                 *y += *t;
             }
             self.fill += len;

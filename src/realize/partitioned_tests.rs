@@ -60,7 +60,8 @@ fn worst(h: &[f64], partition: usize, x: &[f64], cuts: &[usize]) -> f64 {
         at += len;
         i += 1;
     }
-    let scale = h.iter().map(|v| v.abs()).sum::<f64>() * x.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let scale =
+        h.iter().map(|v| v.abs()).sum::<f64>() * x.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     y.iter()
         .zip(&expected)
         .map(|(a, b)| (a - b).abs())
@@ -69,7 +70,11 @@ fn worst(h: &[f64], partition: usize, x: &[f64], cuts: &[usize]) -> f64 {
 }
 
 fn noise(n: usize, seed: u64) -> Vec<f64> {
-    taps(n, seed).iter().enumerate().map(|(i, v)| v * (3.0 * i as f64 / n as f64).exp()).collect()
+    taps(n, seed)
+        .iter()
+        .enumerate()
+        .map(|(i, v)| v * (3.0 * i as f64 / n as f64).exp())
+        .collect()
 }
 
 #[test]
@@ -87,7 +92,10 @@ fn equals_the_direct_form_at_several_lengths_and_blocks() {
         let h = taps(n, n as u64);
         let x = noise(n + 3 * partition + 500, 99);
         let w = worst(&h, partition, &x, cuts);
-        assert!(w <= RELATIVE_TOLERANCE, "{n} taps, B = {partition}, cuts {cuts:?}: {w:e}");
+        assert!(
+            w <= RELATIVE_TOLERANCE,
+            "{n} taps, B = {partition}, cuts {cuts:?}: {w:e}"
+        );
     }
 }
 
@@ -133,5 +141,8 @@ fn refuses_a_design_with_poles() {
         Structure::PartitionedConvolution,
         CoefficientPrecision::F64,
     );
-    assert!(matches!(r, Err(super::RealizeError::NeedsFir { .. })), "{r:?}");
+    assert!(
+        matches!(r, Err(super::RealizeError::NeedsFir { .. })),
+        "{r:?}"
+    );
 }

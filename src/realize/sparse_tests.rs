@@ -37,9 +37,13 @@ fn signal(n: usize, seed: u64) -> Vec<f64> {
 /// Worst |sparse − direct| relative to the direct form's peak: sample by sample, and in blocks
 /// cut at the lengths in `cuts` (cycled). `None` when the design does not realize (unstable).
 fn mismatch(design: &TransferFunction, x: &[f64], cuts: &[usize]) -> Option<(f64, f64)> {
-    let sparse = realize(design, Structure::SparseRecursion, CoefficientPrecision::F64)
-        .ok()?
-        .filter;
+    let sparse = realize(
+        design,
+        Structure::SparseRecursion,
+        CoefficientPrecision::F64,
+    )
+    .ok()?
+    .filter;
     // The same coefficients as a dense direct form, built without a second root search.
     let (b, a) = match &sparse {
         Filter::SparseRecursion(s) => {
@@ -58,7 +62,10 @@ fn mismatch(design: &TransferFunction, x: &[f64], cuts: &[usize]) -> Option<(f64
     };
     let mut direct = Filter::DirectForm2T(DirectForm2T::new(b, a));
     let reference: Vec<f64> = x.iter().map(|&v| direct.process_sample(v)).collect();
-    let peak = reference.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(1e-300);
+    let peak = reference
+        .iter()
+        .fold(0.0f64, |m, v| m.max(v.abs()))
+        .max(1e-300);
     let per_sample: Vec<f64> = {
         let mut f = sparse.clone();
         x.iter().map(|&v| f.process_sample(v)).collect()
@@ -164,14 +171,22 @@ fn rounding_that_reaches_the_circle_is_refused() {
     a[0] = 1.0;
     a[10] = -c;
     let design = TransferFunction::new(vec![1.0], a);
-    let f64_run = realize(&design, Structure::SparseRecursion, CoefficientPrecision::F64)
-        .expect("stable in f64");
+    let f64_run = realize(
+        &design,
+        Structure::SparseRecursion,
+        CoefficientPrecision::F64,
+    )
+    .expect("stable in f64");
     assert!(f64_run.max_pole_radius < 1.0);
     assert!(matches!(
         f64_run.pole_evidence,
         PoleEvidence::DominantLeadingTap { .. }
     ));
-    match realize(&design, Structure::SparseRecursion, CoefficientPrecision::F32) {
+    match realize(
+        &design,
+        Structure::SparseRecursion,
+        CoefficientPrecision::F32,
+    ) {
         Err(RealizeError::UnstableAfterRounding { structure, .. }) => {
             assert_eq!(structure, Structure::SparseRecursion)
         }
@@ -191,12 +206,20 @@ fn a_split_double_root_is_refused_and_not_judged_by_the_cheap_check() {
     a[8] = -2.0 * c;
     a[16] = c * c;
     let design = TransferFunction::new(vec![1.0], a);
-    let f64_run = realize(&design, Structure::SparseRecursion, CoefficientPrecision::F64)
-        .expect("stable in f64");
+    let f64_run = realize(
+        &design,
+        Structure::SparseRecursion,
+        CoefficientPrecision::F64,
+    )
+    .expect("stable in f64");
     assert_eq!(f64_run.pole_evidence, PoleEvidence::Roots);
     assert!(
         matches!(
-            realize(&design, Structure::SparseRecursion, CoefficientPrecision::F32),
+            realize(
+                &design,
+                Structure::SparseRecursion,
+                CoefficientPrecision::F32
+            ),
             Err(RealizeError::UnstableAfterRounding { .. })
         ),
         "the rounded double root leaves the circle"
