@@ -18,10 +18,8 @@ use std::hint::black_box;
 use std::time::Duration;
 
 use criterion::{criterion_group, criterion_main, BatchSize, BenchmarkId, Criterion, Throughput};
-use num_complex::Complex64;
 use redress::engine::flush_denormals_on_this_thread;
 use redress::model::{CoefficientPrecision, Structure, TransferFunction};
-use redress::numeric::poly::from_roots;
 use redress::realize::kernels::ChannelBank;
 use redress::realize::{realize, Filter};
 
@@ -31,24 +29,10 @@ const BLOCKS: [usize; 3] = [32, 64, 256];
 /// Frames per measured call sequence (several blocks).
 const FRAMES: usize = 2048;
 
-/// A stable minimum-phase design of even `order`: pole pairs at radii 0.60–0.95 and zero pairs
-/// at 0.30–0.90, angles spread over the band (deterministic: an invented inverse of the kind
-/// redress runs).
+/// A stable minimum-phase design of even `order` (pole pairs at radii 0.60–0.95, zero pairs at
+/// 0.30–0.90; the same invented inverse `redress bench --recursion-limits` times).
 fn design(order: usize) -> TransferFunction {
-    let pairs = order / 2;
-    let mut poles = Vec::new();
-    let mut zeros = Vec::new();
-    for i in 0..pairs {
-        let f = (i as f64 + 0.5) / pairs as f64;
-        let pole = Complex64::from_polar(0.60 + 0.35 * f, 0.1 + 2.9 * f);
-        let zero = Complex64::from_polar(0.90 - 0.60 * f, 0.3 + 2.5 * (1.0 - f));
-        poles.extend([pole, pole.conj()]);
-        zeros.extend([zero, zero.conj()]);
-    }
-    TransferFunction::new(
-        from_roots(0.8, &zeros).expect("finite"),
-        from_roots(1.0, &poles).expect("finite"),
-    )
+    redress::bench::invented_inverse(order)
 }
 
 fn structure_name(s: Structure) -> &'static str {
@@ -83,6 +67,25 @@ fn plain(filters: &mut [Filter], input: &[f32], output: &mut [f32], channels: us
             y[c] = f.process_sample(f64::from(x[c])) as f32;
         }
     }
+}
+
+/// Times `bank` over `input` in calls of `step` samples (interleaved f32 in and out).
+fn bench_bank(
+    group: &mut criterion::BenchmarkGroup<'_, criterion::measurement::WallTime>,
+    id: BenchmarkId,
+    mut bank: ChannelBank,
+    input: &[f32],
+    output: &mut [f32],
+    step: usize,
+) {
+    group.bench_function(id, |b| {
+        b.iter(|| {
+            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                bank.process_f32(x, y);
+            }
+            black_box(&output);
+        })
+    });
 }
 
 fn kernels(c: &mut Criterion) {
@@ -121,15 +124,14 @@ fn kernels(c: &mut Criterion) {
                             black_box(&output);
                         })
                     });
-                    let mut bank = ChannelBank::new(vec![filter.clone(); channels]);
-                    group.bench_function(BenchmarkId::new("fast", &id), |b| {
-                        b.iter(|| {
-                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
-                                bank.process_f32(x, y);
-                            }
-                            black_box(&output);
-                        })
-                    });
+                    bench_bank(
+                        &mut group,
+                        BenchmarkId::new("fast", &id),
+                        ChannelBank::new(vec![filter.clone(); channels]),
+                        &input,
+                        &mut output,
+                        step,
+                    );
                 }
             }
             group.finish();
@@ -201,18 +203,13 @@ fn long_fir(c: &mut Criterion) {
                 let filter = realize(&fir, structure, CoefficientPrecision::F32)
                     .expect("FIR realizes")
                     .filter;
-                let mut bank = ChannelBank::new(vec![filter; channels]);
-                let step = 64 * channels;
-                group.bench_function(
+                bench_bank(
+                    &mut group,
                     BenchmarkId::new(structure_name(structure), format!("ch{channels}/block64")),
-                    |b| {
-                        b.iter(|| {
-                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
-                                bank.process_f32(x, y);
-                            }
-                            black_box(&output);
-                        })
-                    },
+                    ChannelBank::new(vec![filter; channels]),
+                    &input,
+                    &mut output,
+                    64 * channels,
                 );
             }
         }
@@ -251,21 +248,16 @@ fn echo(c: &mut Criterion) {
                 continue;
             };
             for block in [64usize, 256] {
-                let mut bank = ChannelBank::new(vec![r.filter.clone(); channels]);
-                let step = block * channels;
-                group.bench_function(
+                bench_bank(
+                    &mut group,
                     BenchmarkId::new(
                         structure_name(structure),
                         format!("ch{channels}/block{block}"),
                     ),
-                    |b| {
-                        b.iter(|| {
-                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
-                                bank.process_f32(x, y);
-                            }
-                            black_box(&output);
-                        })
-                    },
+                    ChannelBank::new(vec![r.filter.clone(); channels]),
+                    &input,
+                    &mut output,
+                    block * channels,
                 );
             }
         }

@@ -308,12 +308,7 @@ mod tests {
     // lattice are tried in that order, each refusal kept.
     #[test]
     fn a_refused_sparse_recursion_falls_back_in_order_and_says_so() {
-        let c: f64 = 0.99989;
-        let mut a = vec![0.0; 17];
-        a[0] = 1.0;
-        a[8] = -2.0 * c;
-        a[16] = c * c;
-        let inverse = TransferFunction::new(vec![1.0], a);
+        let inverse = crate::realize::sparse_tests::squared_echo(0.99989);
         assert!(sparse_pays(&inverse).is_some());
         let choice = realize_safely(&inverse, &path_asking(Structure::Sections));
         let order = [
@@ -343,11 +338,8 @@ mod tests {
     fn sparse_only_where_it_pays() {
         let dense = TransferFunction::new(vec![1.0, 0.5], vec![1.0, -0.5, 0.25, -0.1, 0.05]);
         assert!(sparse_pays(&dense).is_none());
-        let mut a = vec![0.0; 121];
-        a[0] = 1.0;
-        a[37] = 0.3;
-        a[120] = -0.16;
-        assert!(sparse_pays(&TransferFunction::new(vec![1.1], a)).is_some());
+        let echo = crate::realize::sparse_tests::all_pole(&[(37, 0.3), (120, -0.16)]);
+        assert!(sparse_pays(&echo).is_some());
     }
 
     // Source: common practice — a long FIR runs by partitioned convolution, a short one as a

@@ -66,8 +66,8 @@ pub struct RecursionLimits {
 
 /// A stable design of even `order`: pole pairs at radii 0.60–0.95 and zero pairs at
 /// 0.30–0.90, angles spread over the band (an invented inverse of the kind redress runs; the
-/// same recipe as the criterion benchmarks).
-fn design(order: usize) -> TransferFunction {
+/// criterion benchmarks use it too).
+pub fn invented_inverse(order: usize) -> TransferFunction {
     let pairs = order / 2;
     let mut poles = Vec::new();
     let mut zeros = Vec::new();
@@ -194,7 +194,7 @@ pub fn measure_recursion_limits() -> RecursionLimits {
         Structure::LatticeLadder,
     ] {
         for order in [8, 16, 32] {
-            cases.push((structure, design(order)));
+            cases.push((structure, invented_inverse(order)));
         }
     }
     cases.push((Structure::SparseRecursion, echo_inverse()));

@@ -38,7 +38,7 @@ mod partitioned_tests;
 #[cfg(test)]
 mod quantization_tests;
 #[cfg(test)]
-mod sparse_tests;
+pub(crate) mod sparse_tests;
 
 pub use coefficients::StructureCoefficients;
 pub use direct_form::DirectForm2T;

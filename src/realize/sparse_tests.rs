@@ -16,6 +16,22 @@ use super::{realize, DirectForm2T, Filter, PoleEvidence, RealizeError};
 
 const RELATIVE_TOLERANCE: f64 = 1e-12;
 
+/// 1/A(z) with A = 1 + Σ aₖz^−dₖ given as (delay, aₖ) pairs.
+pub(crate) fn all_pole(taps: &[(usize, f64)]) -> TransferFunction {
+    let order = taps.iter().map(|t| t.0).max().unwrap_or(0);
+    let mut a = vec![0.0; order + 1];
+    a[0] = 1.0;
+    for &(d, g) in taps {
+        a[d] = g;
+    }
+    TransferFunction::new(vec![1.0], a)
+}
+
+/// (1 − c·z⁻⁸)² as the denominator: 1 − 2c·z⁻⁸ + c²·z⁻¹⁶, a double root of z⁸ at c.
+pub(crate) fn squared_echo(c: f64) -> TransferFunction {
+    all_pole(&[(8, -2.0 * c), (16, c * c)])
+}
+
 /// Noise, an impulse and silence (the recursion's own ringing), deterministic.
 fn signal(n: usize, seed: u64) -> Vec<f64> {
     let mut state = seed.wrapping_mul(0x9e37_79b9_7f4a_7c15) | 1;
@@ -166,11 +182,7 @@ proptest! {
 // the cheap check holds (Σ|aₖ| = c < 1); rounded, Σ|aₖ| = 1, so the roots decide.
 #[test]
 fn rounding_that_reaches_the_circle_is_refused() {
-    let c = 1.0 - 2e-8;
-    let mut a = vec![0.0; 11];
-    a[0] = 1.0;
-    a[10] = -c;
-    let design = TransferFunction::new(vec![1.0], a);
+    let design = all_pole(&[(10, -(1.0 - 2e-8))]);
     let f64_run = realize(
         &design,
         Structure::SparseRecursion,
@@ -200,12 +212,7 @@ fn rounding_that_reaches_the_circle_is_refused() {
 // quadratic w² + a₁w + a₂): the sparse recursion is refused after rounding.
 #[test]
 fn a_split_double_root_is_refused_and_not_judged_by_the_cheap_check() {
-    let c: f64 = 0.99989;
-    let mut a = vec![0.0; 17];
-    a[0] = 1.0;
-    a[8] = -2.0 * c;
-    a[16] = c * c;
-    let design = TransferFunction::new(vec![1.0], a);
+    let design = squared_echo(0.99989);
     let f64_run = realize(
         &design,
         Structure::SparseRecursion,
