@@ -379,6 +379,10 @@ fn realize_lattice(
 /// the dense polynomial, as for the direct form.
 fn sparse_check(a: &[f64]) -> (PoleCheck, PoleEvidence) {
     let recursive: Vec<SparseTap> = sparse_taps(a).into_iter().skip(1).collect();
+    if recursive.is_empty() {
+        // A sparse FIR (a delayed least-squares inverse of an echo can be one).
+        return (check_denominator(&[1.0]), PoleEvidence::NoPoles);
+    }
     match dominant_tap_bound(&recursive) {
         Some(d) => (
             PoleCheck {

@@ -232,3 +232,21 @@ fn a_split_double_root_is_refused_and_not_judged_by_the_cheap_check() {
         "the rounded double root leaves the circle"
     );
 }
+
+// Source: common practice — a sparse FIR (taps at multiples of an echo's delay, as a delayed
+// least-squares inverse of a single echo comes out) has no poles to check.
+#[test]
+fn a_sparse_fir_has_no_poles() {
+    let mut b = vec![0.0; 37];
+    b[0] = -0.003;
+    b[12] = 0.0067;
+    b[36] = 0.29;
+    let r = realize(
+        &TransferFunction::new(b, vec![1.0]),
+        Structure::SparseRecursion,
+        CoefficientPrecision::F32,
+    )
+    .unwrap();
+    assert_eq!(r.pole_evidence, PoleEvidence::NoPoles);
+    assert_eq!(r.max_pole_radius, 0.0);
+}

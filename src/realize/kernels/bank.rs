@@ -93,6 +93,9 @@ fn prefers_lanes(shape: LaneShape, used: usize, lanes: usize) -> bool {
 impl ChannelBank {
     /// One filter per channel, in channel order.
     pub fn new(filters: Vec<Filter>) -> Self {
+        // Decide the vector unit here, on the control side: the first call reads the
+        // environment (`REDRESS_KERNELS`), which may allocate; later calls read a cached value.
+        detected_vector_unit();
         let channels = filters.len();
         let mut by_shape: BTreeMap<LaneShape, Vec<usize>> = BTreeMap::new();
         let mut units = Vec::new();
