@@ -47,15 +47,7 @@ fn structure_name(s: Structure) -> &'static str {
 
 /// Deterministic noise, interleaved over `channels`.
 fn noise(frames: usize, channels: usize) -> Vec<f32> {
-    let mut state = 0x2545_f491_4f6c_dd1du64;
-    (0..frames * channels)
-        .map(|_| {
-            state ^= state << 13;
-            state ^= state >> 7;
-            state ^= state << 17;
-            ((state >> 40) as f32 / (1u64 << 24) as f32 - 0.5) * 0.5
-        })
-        .collect()
+    redress::bench::bench_noise(frames * channels)
 }
 
 fn plain(filters: &mut [Filter], input: &[f32], output: &mut [f32], channels: usize) {

@@ -25,8 +25,8 @@ pub use callback_timing::{percentile, time_callbacks, CallbackTiming};
 pub use chain_calibration::{calibrate_chains, ChainCalibration};
 pub use long_fir::{bench_long_firs, invented_long_fir, render_long_firs, LongFirTiming};
 pub use recursion_limits::{
-    invented_inverse, measure_recursion_limits, render_recursion_limits, RecursionCost,
-    RecursionLimits,
+    bench_noise, invented_inverse, measure_recursion_limits, render_recursion_limits,
+    RecursionCost, RecursionLimits,
 };
 pub use render::render_text;
 pub use round_trip::{analyse, measure_round_trip, RoundTrip, RoundTripOptions};

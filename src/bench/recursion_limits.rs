@@ -95,7 +95,8 @@ fn echo_inverse() -> TransferFunction {
     TransferFunction::new(vec![1.0 / 0.9], a)
 }
 
-fn noise(n: usize) -> Vec<f32> {
+/// `n` samples of deterministic white noise at ±0.25 (the criterion benchmarks use it too).
+pub fn bench_noise(n: usize) -> Vec<f32> {
     let mut state = 0x2545_f491_4f6c_dd1du64;
     (0..n)
         .map(|_| {
@@ -109,7 +110,7 @@ fn noise(n: usize) -> Vec<f32> {
 
 /// Best ns per sample per channel of `filter` on `channels` channels in blocks of `block`.
 fn time_filter(filter: &Filter, channels: usize, block: usize) -> f64 {
-    let input = noise(SAMPLES * channels);
+    let input = bench_noise(SAMPLES * channels);
     let mut best = f64::INFINITY;
     if channels == 1 {
         let x: Vec<f64> = input.iter().map(|&v| f64::from(v)).collect();
