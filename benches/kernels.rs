@@ -6,6 +6,11 @@
 //! samples/s. A last group runs a decaying tail (silence after an impulse, through the
 //! subnormal range) against noise, with and without flush-to-zero.
 //!
+//! Two more groups time the structures the pipeline picks by cost: `long_fir/TAPS` (an invented
+//! FIR as a partitioned convolution against the direct form's tapped delay line, 1 and 8
+//! channels, 64-frame blocks) and `echo/right_leg` (the example echo line's inverse as a sparse
+//! recursion against sections and the lattice).
+//!
 //! `cargo bench --bench kernels` runs everything (a few minutes); a filter argument narrows it,
 //! e.g. `cargo bench --bench kernels -- 'sections/order32'`.
 
@@ -13,10 +18,8 @@ use std::hint::black_box;
 use std::time::Duration;
 
 use criterion::{criterion_group, criterion_main, BatchSize, BenchmarkId, Criterion, Throughput};
-use num_complex::Complex64;
 use redress::engine::flush_denormals_on_this_thread;
 use redress::model::{CoefficientPrecision, Structure, TransferFunction};
-use redress::numeric::poly::from_roots;
 use redress::realize::kernels::ChannelBank;
 use redress::realize::{realize, Filter};
 
@@ -26,24 +29,10 @@ const BLOCKS: [usize; 3] = [32, 64, 256];
 /// Frames per measured call sequence (several blocks).
 const FRAMES: usize = 2048;
 
-/// A stable minimum-phase design of even `order`: pole pairs at radii 0.60–0.95 and zero pairs
-/// at 0.30–0.90, angles spread over the band (deterministic: an invented inverse of the kind
-/// redress runs).
+/// A stable minimum-phase design of even `order` (pole pairs at radii 0.60–0.95, zero pairs at
+/// 0.30–0.90; the same invented inverse `redress bench --recursion-limits` times).
 fn design(order: usize) -> TransferFunction {
-    let pairs = order / 2;
-    let mut poles = Vec::new();
-    let mut zeros = Vec::new();
-    for i in 0..pairs {
-        let f = (i as f64 + 0.5) / pairs as f64;
-        let pole = Complex64::from_polar(0.60 + 0.35 * f, 0.1 + 2.9 * f);
-        let zero = Complex64::from_polar(0.90 - 0.60 * f, 0.3 + 2.5 * (1.0 - f));
-        poles.extend([pole, pole.conj()]);
-        zeros.extend([zero, zero.conj()]);
-    }
-    TransferFunction::new(
-        from_roots(0.8, &zeros).expect("finite"),
-        from_roots(1.0, &poles).expect("finite"),
-    )
+    redress::bench::invented_inverse(order)
 }
 
 fn structure_name(s: Structure) -> &'static str {
@@ -51,20 +40,14 @@ fn structure_name(s: Structure) -> &'static str {
         Structure::DirectForm2T => "direct_form",
         Structure::Sections => "sections",
         Structure::LatticeLadder => "lattice",
+        Structure::SparseRecursion => "sparse",
+        Structure::PartitionedConvolution => "partitioned",
     }
 }
 
 /// Deterministic noise, interleaved over `channels`.
 fn noise(frames: usize, channels: usize) -> Vec<f32> {
-    let mut state = 0x2545_f491_4f6c_dd1du64;
-    (0..frames * channels)
-        .map(|_| {
-            state ^= state << 13;
-            state ^= state >> 7;
-            state ^= state << 17;
-            ((state >> 40) as f32 / (1u64 << 24) as f32 - 0.5) * 0.5
-        })
-        .collect()
+    redress::bench::bench_noise(frames * channels)
 }
 
 fn plain(filters: &mut [Filter], input: &[f32], output: &mut [f32], channels: usize) {
@@ -76,6 +59,25 @@ fn plain(filters: &mut [Filter], input: &[f32], output: &mut [f32], channels: us
             y[c] = f.process_sample(f64::from(x[c])) as f32;
         }
     }
+}
+
+/// Times `bank` over `input` in calls of `step` samples (interleaved f32 in and out).
+fn bench_bank(
+    group: &mut criterion::BenchmarkGroup<'_, criterion::measurement::WallTime>,
+    id: BenchmarkId,
+    mut bank: ChannelBank,
+    input: &[f32],
+    output: &mut [f32],
+    step: usize,
+) {
+    group.bench_function(id, |b| {
+        b.iter(|| {
+            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
+                bank.process_f32(x, y);
+            }
+            black_box(&output);
+        })
+    });
 }
 
 fn kernels(c: &mut Criterion) {
@@ -114,15 +116,14 @@ fn kernels(c: &mut Criterion) {
                             black_box(&output);
                         })
                     });
-                    let mut bank = ChannelBank::new(vec![filter.clone(); channels]);
-                    group.bench_function(BenchmarkId::new("fast", &id), |b| {
-                        b.iter(|| {
-                            for (x, y) in input.chunks(step).zip(output.chunks_mut(step)) {
-                                bank.process_f32(x, y);
-                            }
-                            black_box(&output);
-                        })
-                    });
+                    bench_bank(
+                        &mut group,
+                        BenchmarkId::new("fast", &id),
+                        ChannelBank::new(vec![filter.clone(); channels]),
+                        &input,
+                        &mut output,
+                        step,
+                    );
                 }
             }
             group.finish();
@@ -177,5 +178,84 @@ fn decaying_tail(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, kernels, decaying_tail);
+/// Long FIRs: partitioned convolution against the direct form, in engine-sized blocks.
+fn long_fir(c: &mut Criterion) {
+    for taps in [1024usize, 4096, 16_384] {
+        let fir = TransferFunction::new(redress::bench::invented_long_fir(taps), vec![1.0]);
+        let mut group = c.benchmark_group(format!("long_fir/{taps}"));
+        group
+            .warm_up_time(Duration::from_millis(300))
+            .measurement_time(Duration::from_secs(1))
+            .sample_size(10);
+        for channels in [1usize, 8] {
+            let input = noise(FRAMES, channels);
+            let mut output = vec![0.0f32; input.len()];
+            group.throughput(Throughput::Elements((FRAMES * channels) as u64));
+            for structure in [Structure::PartitionedConvolution, Structure::DirectForm2T] {
+                let filter = realize(&fir, structure, CoefficientPrecision::F32)
+                    .expect("FIR realizes")
+                    .filter;
+                bench_bank(
+                    &mut group,
+                    BenchmarkId::new(structure_name(structure), format!("ch{channels}/block64")),
+                    ChannelBank::new(vec![filter; channels]),
+                    &input,
+                    &mut output,
+                    64 * channels,
+                );
+            }
+        }
+        group.finish();
+    }
+}
+
+/// The example echo line's right leg (configs/echo_line.toml): its exact inverse, a recursion
+/// of order 197 with three recursive taps, in the structures that can run it.
+fn echo(c: &mut Criterion) {
+    let mut a = vec![0.0; 198];
+    a[0] = 1.0;
+    a[41] = 0.25 / 0.9;
+    a[120] = -0.17 / 0.9;
+    a[197] = 0.08 / 0.9;
+    let inverse = TransferFunction::new(vec![1.0 / 0.9], a);
+    let mut group = c.benchmark_group("echo/right_leg");
+    group
+        .warm_up_time(Duration::from_millis(200))
+        .measurement_time(Duration::from_millis(600))
+        .sample_size(10);
+    for channels in [1usize, 8] {
+        let input = noise(FRAMES, channels);
+        let mut output = vec![0.0f32; input.len()];
+        group.throughput(Throughput::Elements((FRAMES * channels) as u64));
+        for structure in [
+            Structure::SparseRecursion,
+            Structure::Sections,
+            Structure::LatticeLadder,
+        ] {
+            let Ok(r) = realize(&inverse, structure, CoefficientPrecision::F32) else {
+                eprintln!(
+                    "skipping {}: it does not realize",
+                    structure_name(structure)
+                );
+                continue;
+            };
+            for block in [64usize, 256] {
+                bench_bank(
+                    &mut group,
+                    BenchmarkId::new(
+                        structure_name(structure),
+                        format!("ch{channels}/block{block}"),
+                    ),
+                    ChannelBank::new(vec![r.filter.clone(); channels]),
+                    &input,
+                    &mut output,
+                    block * channels,
+                );
+            }
+        }
+    }
+    group.finish();
+}
+
+criterion_group!(benches, kernels, decaying_tail, long_fir, echo);
 criterion_main!(benches);

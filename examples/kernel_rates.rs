@@ -3,7 +3,8 @@
 //!
 //! Usage: kernel_rates CASES.json > RATES.json
 //! CASES.json: {"signal": [...f64], "repeats": R, "cases": [{"name", "b", "a", "channels",
-//! "block"}]}. Each case's filter is realized from b/a in every structure (f64 coefficients);
+//! "block"}]}. Each case's filter is realized from b/a in every structure (f64 coefficients; an
+//! FIR, a = [1], as a partitioned convolution and, up to 4096 taps, as a direct form);
 //! every channel runs the same filter on the same signal. Prints one JSON object with, per case
 //! and structure, the best time over R repeats in ns per sample per channel for: the plain
 //! per-sample path, channels one at a time; the block kernel, channels one at a time; and (for
@@ -41,12 +42,22 @@ fn main() {
         let a: Vec<f64> = serde_json::from_value(case["a"].clone()).expect("a");
         let channels = case["channels"].as_u64().unwrap_or(1) as usize;
         let block = case["block"].as_u64().unwrap_or(64) as usize;
+        let fir = a.len() == 1;
+        let taps = b.len();
         let design = TransferFunction::new(b, a);
-        for structure in [
-            Structure::DirectForm2T,
-            Structure::Sections,
-            Structure::LatticeLadder,
-        ] {
+        // An FIR runs as the pipeline would run it: partitioned convolution, and the direct
+        // form's tapped delay line beside it up to 4096 taps (past that it takes minutes);
+        // factoring thousands of roots into sections is not something anyone would run.
+        let structures: &[Structure] = match (fir, taps <= 4096) {
+            (true, true) => &[Structure::PartitionedConvolution, Structure::DirectForm2T],
+            (true, false) => &[Structure::PartitionedConvolution],
+            (false, _) => &[
+                Structure::DirectForm2T,
+                Structure::Sections,
+                Structure::LatticeLadder,
+            ],
+        };
+        for &structure in structures {
             let Ok(r) = realize(&design, structure, CoefficientPrecision::F64) else {
                 continue;
             };

@@ -156,10 +156,31 @@ enum Command {
     /// measure the device path with its output looped back to its input.
     #[command(after_help = EXIT_CODES)]
     Bench {
-        config: PathBuf,
+        /// The link to time (not needed with --fir-taps or --recursion-limits).
+        #[arg(required_unless_present_any = ["fir_taps", "recursion_limits"])]
+        config: Option<PathBuf>,
         /// Print every figure as JSON.
         #[arg(long)]
         json: bool,
+        /// Also time this config in the same run and compare callback time per channel.
+        #[arg(long, value_name = "CONFIG", conflicts_with_all = ["fir_taps", "recursion_limits"])]
+        against: Option<PathBuf>,
+        /// Instead of a config: an invented long FIR of each of these lengths on every channel,
+        /// as a partitioned convolution and as a direct form (e.g. 1024,4096,16384).
+        #[arg(long, value_delimiter = ',', value_name = "TAPS",
+              value_parser = clap::value_parser!(u32).range(1..=65_536))]
+        fir_taps: Option<Vec<u32>>,
+        /// With --fir-taps: audio channels.
+        #[arg(long, default_value_t = 8, requires = "fir_taps",
+              value_parser = clap::value_parser!(u32).range(1..=64))]
+        channels: u32,
+        /// With --fir-taps: run the direct form too up to this many taps.
+        #[arg(long, default_value_t = 16_384, requires = "fir_taps")]
+        direct_up_to: u32,
+        /// Instead of a config: the recursive kernels' cycles per sample per section or stage
+        /// against the chain of dependent operations their recurrence sets, on this processor.
+        #[arg(long, conflicts_with = "fir_taps")]
+        recursion_limits: bool,
         /// Callbacks to time.
         #[arg(long, default_value_t = redress::bench::DEFAULT_BENCH_BLOCKS as u32,
               value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
@@ -243,18 +264,36 @@ fn main() -> ExitCode {
         Command::Bench {
             config,
             json,
+            against,
+            fir_taps,
+            channels,
+            direct_up_to,
+            recursion_limits,
             blocks,
             block_frames,
             round_trip,
             input_device,
             output_device,
-        } => bench(
-            &config,
-            json,
-            blocks as usize,
-            block_frames.map(|b| b as usize),
-            round_trip.then_some((input_device, output_device)),
-        ),
+        } => match (config, fir_taps) {
+            _ if recursion_limits => bench_recursion_limits(json),
+            (_, Some(taps)) => bench_long_firs(
+                &taps,
+                channels as usize,
+                direct_up_to as usize,
+                json,
+                blocks as usize,
+                block_frames.map_or(64, |b| b as usize),
+            ),
+            (Some(config), None) => bench(
+                &config,
+                against.as_deref(),
+                json,
+                blocks as usize,
+                block_frames.map(|b| b as usize),
+                round_trip.then_some((input_device, output_device)),
+            ),
+            (None, None) => exit::INVALID_CONFIG,
+        },
         Command::Measure(command) => measure_commands::run(command),
     };
     ExitCode::from(code)
@@ -490,8 +529,51 @@ fn devices() -> u8 {
     }
 }
 
+fn print_json<T: serde::Serialize>(value: &T) {
+    println!(
+        "{}",
+        serde_json::to_string_pretty(value).unwrap_or_default()
+    );
+}
+
+fn bench_recursion_limits(json: bool) -> u8 {
+    let limits = redress::bench::measure_recursion_limits();
+    if json {
+        print_json(&limits);
+    } else {
+        print!("{}", redress::bench::render_recursion_limits(&limits));
+    }
+    exit::OK
+}
+
+fn bench_long_firs(
+    taps: &[u32],
+    channels: usize,
+    direct_up_to: usize,
+    json: bool,
+    blocks: usize,
+    block_frames: usize,
+) -> u8 {
+    let taps: Vec<usize> = taps.iter().map(|&t| t as usize).collect();
+    let rows = redress::bench::bench_long_firs(
+        &taps,
+        channels,
+        48_000.0,
+        block_frames,
+        blocks,
+        direct_up_to,
+    );
+    if json {
+        print_json(&rows);
+    } else {
+        print!("{}", redress::bench::render_long_firs(&rows));
+    }
+    exit::OK
+}
+
 fn bench(
     config: &Path,
+    against: Option<&Path>,
     json: bool,
     blocks: usize,
     block_frames: Option<usize>,
@@ -514,10 +596,16 @@ fn bench(
         max_round_trip: std::time::Duration::from_secs(1),
     });
     let asked_round_trip = round_trip.is_some();
+    let baseline = match against.map(load) {
+        None => None,
+        Some(Ok(other)) => Some(other),
+        Some(Err(code)) => return code,
+    };
     let options = BenchOptions {
         blocks,
         block_frames,
         round_trip,
+        baseline,
     };
     match bench_link(&link, &plan, &options) {
         Ok(report) => {

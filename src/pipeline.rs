@@ -8,8 +8,9 @@ use serde::Serialize;
 
 use crate::analysis::{analyse, AnalysisError, ChannelAnalysis};
 use crate::design::{design_inverse, DesignError, InverseDesign};
-use crate::model::{Link, Path, Structure};
-use crate::realize::{realize, Realization, RealizeError};
+use crate::model::{Link, Path, Structure, TransferFunction};
+use crate::numeric::poly::trim_trailing_zeros;
+use crate::realize::{realize, Realization, RealizeError, PARTITIONED_MIN_TAPS};
 
 /// Smallest distance 1 − max |pole| a rounded realization must keep before it is trusted to run.
 /// Closer than this, round-off in the recursion itself can sustain oscillation (common practice:
@@ -25,6 +26,14 @@ pub struct StructureSwitch {
     pub reason: String,
 }
 
+/// A structure that was tried and refused before the one that runs (or before giving up).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StructureRefusal {
+    pub structure: Structure,
+    /// The realization stage's refusal, in words.
+    pub reason: String,
+}
+
 /// What the pipeline made of one path.
 #[derive(Debug, Clone)]
 pub struct PathPlan {
@@ -36,6 +45,9 @@ pub struct PathPlan {
     pub realization: Option<Result<Realization, RealizeError>>,
     /// Set when the realization runs in another structure than the one requested.
     pub switched: Option<StructureSwitch>,
+    /// Every structure tried and refused, in the order tried (empty when the first one tried
+    /// runs).
+    pub refused: Vec<StructureRefusal>,
 }
 
 impl PathPlan {
@@ -109,10 +121,12 @@ fn plan_path(path: &Path, sample_rate: f64) -> PathPlan {
         .ok()
         .map(|a| design_inverse(&path.channel, a, &path.inverse, sample_rate));
     let mut switched = None;
+    let mut refused = Vec::new();
     let realization = design.as_ref().and_then(|d| d.as_ref().ok()).map(|d| {
-        let (result, switch) = realize_safely(d, path);
-        switched = switch;
-        result
+        let choice = realize_safely(&d.inverse, path);
+        switched = choice.switched;
+        refused = choice.refused;
+        choice.result
     });
     PathPlan {
         path: path.clone(),
@@ -120,55 +134,144 @@ fn plan_path(path: &Path, sample_rate: f64) -> PathPlan {
         design,
         realization,
         switched,
+        refused,
     }
 }
 
-/// Realizes in the requested structure; when that would be unstable, or closer to the circle
-/// than [`POLE_MARGIN_FLOOR`], after rounding, and the policy allows it, tries the sturdier
-/// structures (sections, then lattice–ladder) and says why it switched.
-fn realize_safely(
-    design: &InverseDesign,
+/// The realization chosen for one inverse, and how it was chosen.
+struct Choice {
+    result: Result<Realization, RealizeError>,
+    switched: Option<StructureSwitch>,
+    refused: Vec<StructureRefusal>,
+}
+
+/// Candidates tried in order; the first that realizes and passes [`checked`] runs. Each entry
+/// is a structure and why it would be used instead of the requested one (`None`: it is the
+/// requested one). Refusals are collected in order.
+fn first_that_runs(
+    inverse: &TransferFunction,
     path: &Path,
-) -> (Result<Realization, RealizeError>, Option<StructureSwitch>) {
-    // An FIR inverse has no poles for rounding to move: run it as the plain tapped delay line
-    // (direct form), which is exact, cheapest and needs no root finding.
-    if design.inverse.a.len() == 1 && path.structure != Structure::DirectForm2T {
-        let switch = StructureSwitch {
-            requested: path.structure,
-            used: Structure::DirectForm2T,
-            reason: "the inverse is FIR: it has no poles to protect, so it runs as a direct-form \
-                     tapped delay line, exact and always stable"
-                .to_string(),
-        };
-        let result = checked(realize(
-            &design.inverse,
+    candidates: &[(Structure, Option<String>)],
+) -> Choice {
+    let mut refused = Vec::new();
+    let mut first_error = None;
+    for (structure, why) in candidates {
+        match checked(realize(inverse, *structure, path.precision)) {
+            Ok(r) => {
+                let reason = why.clone().or_else(|| {
+                    // A fallback: it runs because the requested structure was refused.
+                    refused
+                        .iter()
+                        .find(|f: &&StructureRefusal| f.structure == path.structure)
+                        .map(|f| f.reason.clone())
+                });
+                let switched = (*structure != path.structure).then(|| StructureSwitch {
+                    requested: path.structure,
+                    used: *structure,
+                    reason: reason.unwrap_or_default(),
+                });
+                return Choice {
+                    result: Ok(r),
+                    switched,
+                    refused,
+                };
+            }
+            Err(e) => {
+                refused.push(StructureRefusal {
+                    structure: *structure,
+                    reason: e.to_string(),
+                });
+                if *structure == path.structure || first_error.is_none() {
+                    first_error = Some(e);
+                }
+            }
+        }
+    }
+    // The requested structure's refusal is the one reported (or the first, when it was not tried).
+    let error = first_error.unwrap_or(RealizeError::InvalidInput {
+        problem: "no structure was tried".to_string(),
+    });
+    Choice {
+        result: Err(error),
+        switched: None,
+        refused,
+    }
+}
+
+/// Realizes in the cheapest safe structure. In order:
+///
+/// 1. a sparse recursion, when the inverse's difference equation is mostly zeros
+///    ([`sparse_pays`]): the same H(z) at the cost of its non-zero taps;
+/// 2. an FIR inverse has no poles for rounding to move: partitioned convolution from
+///    [`PARTITIONED_MIN_TAPS`] taps on (cheaper there, measured), else the plain tapped delay line
+///    (direct form), exact and needing no root finding;
+/// 3. the requested structure; when that would be unstable, or closer to the circle than
+///    [`POLE_MARGIN_FLOOR`], after rounding, and the policy allows it, the sturdier structures
+///    (sections, then lattice–ladder).
+///
+/// Every refusal along the way is kept, in order, for the report.
+fn realize_safely(inverse: &TransferFunction, path: &Path) -> Choice {
+    let mut candidates: Vec<(Structure, Option<String>)> = Vec::new();
+    if let Some(why) = sparse_pays(inverse) {
+        candidates.push((Structure::SparseRecursion, Some(why)));
+    }
+    let b = trim_trailing_zeros(&inverse.b);
+    if trim_trailing_zeros(&inverse.a).len() == 1 {
+        if b.len() >= PARTITIONED_MIN_TAPS {
+            candidates.push((
+                Structure::PartitionedConvolution,
+                Some(format!(
+                    "the inverse is an FIR of {} taps: from {PARTITIONED_MIN_TAPS} taps on, \
+                     partitioned FFT convolution runs it faster than the tapped delay line, with \
+                     a direct-form head so no latency is added",
+                    b.len()
+                )),
+            ));
+        }
+        candidates.push((
             Structure::DirectForm2T,
-            path.precision,
+            (path.structure != Structure::DirectForm2T).then(|| {
+                "the inverse is FIR: it has no poles to protect, so it runs as a direct-form \
+                 tapped delay line, exact and always stable"
+                    .to_string()
+            }),
         ));
-        return (result, Some(switch));
+        return first_that_runs(inverse, path, &candidates);
     }
-    let first = checked(realize(&design.inverse, path.structure, path.precision));
-    let reason = match &first {
-        Ok(_) => return (first, None),
-        Err(e) => e.to_string(),
-    };
-    if !path.inverse.structure_fallback {
-        return (first, None);
-    }
-    for used in [Structure::Sections, Structure::LatticeLadder] {
-        if used == path.structure {
-            continue;
-        }
-        if let Ok(r) = checked(realize(&design.inverse, used, path.precision)) {
-            let switch = StructureSwitch {
-                requested: path.structure,
-                used,
-                reason: reason.clone(),
-            };
-            return (Ok(r), Some(switch));
+    candidates.push((path.structure, None));
+    if path.inverse.structure_fallback {
+        for used in [Structure::Sections, Structure::LatticeLadder] {
+            if used != path.structure {
+                candidates.push((used, None));
+            }
         }
     }
-    (first, None)
+    first_that_runs(inverse, path, &candidates)
+}
+
+/// Why a sparse recursion would run `inverse` cheaper, when it would: it touches at most a
+/// quarter of the coefficients the dense direct form touches a sample (2·order + 1), and the
+/// order is at least 4. The dense structures cost about two multiply-adds per order a sample;
+/// the sparse one one per non-zero tap, plus a call's overhead per run of samples shorter than
+/// the shortest recursive delay (`redress bench` on configs/echo_line.toml).
+pub fn sparse_pays(inverse: &TransferFunction) -> Option<String> {
+    let a0 = *inverse.a.first()?;
+    if a0 == 0.0 {
+        return None;
+    }
+    let b = trim_trailing_zeros(&inverse.b);
+    let a = trim_trailing_zeros(&inverse.a);
+    let order = b.len().max(a.len()).saturating_sub(1);
+    let touched =
+        b.iter().filter(|c| **c != 0.0).count() + a.iter().skip(1).filter(|c| **c != 0.0).count();
+    let dense = 2 * order + 1;
+    (order >= 4 && 4 * touched <= dense).then(|| {
+        format!(
+            "the inverse's difference equation has {touched} non-zero taps at order {order}: \
+             a sparse recursion touches only those, {touched} multiply-adds a sample against \
+             {dense} for the dense direct form, with the same poles"
+        )
+    })
 }
 
 /// Refuses a realization whose rounded poles are closer to the circle than the margin floor.
@@ -182,4 +285,88 @@ fn checked(result: Result<Realization, RealizeError>) -> Result<Realization, Rea
         });
     }
     Ok(r)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{CoefficientPrecision, InversePolicy, ModelForm};
+
+    fn path_asking(structure: Structure) -> Path {
+        Path {
+            label: "test".to_string(),
+            channels: vec![0],
+            form: ModelForm::DifferenceEquation,
+            channel: TransferFunction::new(vec![1.0], vec![1.0]),
+            structure,
+            precision: CoefficientPrecision::F32,
+            circle_tolerance: 1e-9,
+            inverse: InversePolicy::default(),
+        }
+    }
+
+    // Source: common practice — a double root splits under coefficient rounding by about the
+    // square root of the rounding error. 1/(1 − c·z⁻⁸)² with c = 0.99989 is sparse (3 taps at
+    // order 16), so the sparse recursion is tried first; its f32 coefficients split the double
+    // root of z⁸ outside the circle, so it is refused, and the requested sections and then the
+    // lattice are tried in that order, each refusal kept.
+    #[test]
+    fn a_refused_sparse_recursion_falls_back_in_order_and_says_so() {
+        let inverse = crate::realize::sparse_tests::squared_echo(0.99989);
+        assert!(sparse_pays(&inverse).is_some());
+        let choice = realize_safely(&inverse, &path_asking(Structure::Sections));
+        let order = [
+            Structure::SparseRecursion,
+            Structure::Sections,
+            Structure::LatticeLadder,
+        ];
+        let tried: Vec<Structure> = choice.refused.iter().map(|r| r.structure).collect();
+        assert!(!tried.is_empty(), "the sparse recursion was not refused");
+        assert_eq!(tried, order[..tried.len()], "fallback order");
+        assert!(choice.refused[0].reason.contains("rounded"));
+        match (&choice.result, tried.len()) {
+            (Ok(r), n) => {
+                assert_eq!(r.structure, order[n]);
+                // Running the requested structure is no switch; anything else is reported as one.
+                match &choice.switched {
+                    None => assert_eq!(r.structure, Structure::Sections),
+                    Some(switch) => assert_eq!(switch.used, r.structure),
+                }
+            }
+            (Err(_), n) => assert_eq!(n, order.len()),
+        }
+    }
+
+    // Source: common practice — a dense recursion gains nothing from skipping zeros.
+    #[test]
+    fn sparse_only_where_it_pays() {
+        let dense = TransferFunction::new(vec![1.0, 0.5], vec![1.0, -0.5, 0.25, -0.1, 0.05]);
+        assert!(sparse_pays(&dense).is_none());
+        let echo = crate::realize::sparse_tests::all_pole(&[(37, 0.3), (120, -0.16)]);
+        assert!(sparse_pays(&echo).is_some());
+    }
+
+    // Source: common practice — a long FIR runs by partitioned convolution, a short one as a
+    // tapped delay line; both are reported as switches from the requested structure.
+    #[test]
+    fn fir_inverses_by_length() {
+        let taps = |n: usize| -> TransferFunction {
+            let b: Vec<f64> = (0..n).map(|i| 0.9f64.powi(i as i32 % 50) + 0.01).collect();
+            TransferFunction::new(b, vec![1.0])
+        };
+        let long = realize_safely(
+            &taps(PARTITIONED_MIN_TAPS),
+            &path_asking(Structure::Sections),
+        );
+        assert_eq!(
+            long.result.unwrap().structure,
+            Structure::PartitionedConvolution
+        );
+        assert!(long.switched.is_some() && long.refused.is_empty());
+        let short = realize_safely(
+            &taps(PARTITIONED_MIN_TAPS - 1),
+            &path_asking(Structure::Sections),
+        );
+        assert_eq!(short.result.unwrap().structure, Structure::DirectForm2T);
+    }
 }

@@ -117,6 +117,35 @@ fn echo_line_is_invertible_with_no_bulk_delay() {
     assert!(text.contains("summary: every path has a stable inverse ready to run"));
 }
 
+// Source: the config's own taps (configs/echo_line.toml) — the exact inverse of
+// g₀ + Σ gₖz^−Dₖ is 1/(g₀ + Σ gₖz^−Dₖ): one numerator tap and one recursive tap per echo, at
+// order max Dₖ, where a dense direct form touches 2·order + 1 coefficients a sample.
+#[test]
+fn echo_line_runs_as_sparse_recursions_and_says_what_they_touch() {
+    let (exit, json) = check_json("configs/echo_line.toml");
+    assert_eq!(exit, 0);
+    for (path, taps, order) in [(&paths(&json)[0], 3u64, 120u64), (&paths(&json)[1], 4, 197)] {
+        let r = &path["realization"];
+        assert_eq!(r["structure"], "sparse_recursion");
+        assert_eq!(r["sparse"]["taps_touched"], taps);
+        assert_eq!(r["sparse"]["order"], order);
+        assert_eq!(r["sparse"]["dense_taps"], 2 * order + 1);
+        assert_eq!(r["pole_check"], "dominant_leading_tap");
+        assert!(r["max_pole_radius"].as_f64().unwrap() < 1.0);
+    }
+    let text = squeeze(&stdout(&redress(&["check", "configs/echo_line.toml"])));
+    assert!(
+        text.contains("realization sparse recursion, f32 coefficients"),
+        "{text}"
+    );
+    assert!(text.contains("touches 3 of the 241 coefficients"), "{text}");
+    assert!(text.contains("touches 4 of the 395 coefficients"), "{text}");
+    assert!(
+        text.contains("runs as y[n] = 1.08696 x[n] − 0.304348 y[n−37]"),
+        "{text}"
+    );
+}
+
 #[test]
 fn paging_delay_leaves_six_samples_and_inverts_the_rest() {
     let (exit, json) = check_json("configs/paging_delay.toml");

@@ -278,6 +278,13 @@ fn running_pole_measure(coefficients: &StructureCoefficients) -> Result<f64, Str
         StructureCoefficients::LatticeLadder { k, .. } => {
             Ok(k.iter().map(|x| x.abs()).fold(0.0, f64::max))
         }
+        // The dense denominator the sparse taps stand for; an FIR has no poles.
+        sparse @ StructureCoefficients::SparseRecursion { .. } => {
+            find_roots(&sparse.transfer_function().a)
+                .map(|r| r.iter().map(|x| x.radius()).fold(0.0, f64::max))
+                .map_err(|e| e.to_string())
+        }
+        StructureCoefficients::PartitionedConvolution { .. } => Ok(0.0),
     }
 }
 

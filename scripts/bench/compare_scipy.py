@@ -7,6 +7,11 @@ and filters in the same run, both as whole-signal calls and as 64-sample streami
 `zi` (as a Python user streams audio); prints ratios. Times are the best of several repeats;
 only ratios are reported, since the machines are shared and noisy.
 
+A second part runs one long FIR (an invented decaying response of 4096 and 16384 taps) through
+redress's partitioned convolution (the structure the pipeline picks for long FIR inverses) and
+through scipy.signal.oaconvolve (whole signal) and scipy.signal.lfilter (whole, and streamed in
+64-sample calls with zi) on the same taps and signal.
+
 Run through compare_scipy.sh (pinned numpy/scipy in a virtual environment), or directly with
 that environment's python from the repository root. Options: --quick (shorter signal, fewer
 repeats), --json FILE (write every figure).
@@ -29,6 +34,8 @@ CHANNELS = [1, 8]
 STREAM_BLOCK = 64
 OUR_BLOCKS = [64, 256]  # 64: as the streaming scipy calls; 256: the engine's default block
 SEED = 20240611
+FIR_TAPS = [4096, 16384]
+FIR_CHANNELS = [1, 8]
 
 
 def design(order, rng):
@@ -78,6 +85,30 @@ def scipy_figures(b, a, sos, x, channels, repeats):
 
     out["sosfilt_stream64"] = best_ns(repeats, total, sos_stream)
     out["lfilter_stream64"] = best_ns(repeats, total, tf_stream)
+    return out
+
+
+def long_fir(taps, rng):
+    """A decaying, sign-changing FIR with a unit first tap, scaled to sum |h| = 1."""
+    h = rng.standard_normal(taps) * np.exp(-4.0 * np.arange(taps) / taps)
+    h[0] = 1.0
+    return h / np.abs(h).sum()
+
+
+def scipy_fir_figures(h, x, repeats):
+    """ns per sample for oaconvolve and lfilter on one channel (scipy's cost is per channel)."""
+    n = x.size
+    out = {}
+    out["oaconvolve_whole"] = best_ns(repeats, n, lambda: sig.oaconvolve(x, h)[:n])
+    out["lfilter_whole"] = best_ns(repeats, n, lambda: sig.lfilter(h, [1.0], x))
+    zi = np.zeros(h.size - 1)
+
+    def stream():
+        z = zi.copy()
+        for s in range(0, n, STREAM_BLOCK):
+            _, z = sig.lfilter(h, [1.0], x[s:s + STREAM_BLOCK], zi=z)
+
+    out["lfilter_stream64"] = best_ns(max(1, repeats // 2), n, stream)
     return out
 
 
@@ -166,12 +197,51 @@ def main():
     print()
     print("bank/1by1: channel bank against the same channels one at a time "
           "(plain per-sample path / block kernel)")
+
+    fir_rows = fir_part(repo, args.quick, rng)
     if args.json:
         with open(args.json, "w") as f:
             json.dump({"scipy": scipy.__version__, "numpy": np.__version__,
                        "vector_unit": ours_first["vector_unit"], "samples": n,
-                       "repeats": repeats, "rows": rows}, f, indent=1)
+                       "repeats": repeats, "rows": rows, "fir_rows": fir_rows}, f, indent=1)
     return 0
+
+
+def fir_part(repo, quick, rng):
+    """Long FIRs: ours (partitioned convolution, 64-frame blocks) against oaconvolve/lfilter."""
+    n = 1 << 14 if quick else 1 << 16
+    repeats = 2 if quick else 3
+    x = rng.standard_normal(n) * 0.25
+    firs = {taps: long_fir(taps, rng) for taps in FIR_TAPS}
+    cases = [{"name": f"fir{taps}_ch{ch}", "b": list(firs[taps]), "a": [1.0], "channels": ch,
+              "block": 64} for taps in FIR_TAPS for ch in FIR_CHANNELS]
+    with tempfile.TemporaryDirectory() as tmp:
+        cases_path = os.path.join(tmp, "fir_cases.json")
+        with open(cases_path, "w") as f:
+            json.dump({"signal": list(x), "repeats": repeats, "cases": cases}, f)
+        ours = run_ours(repo, cases_path)
+        theirs = {taps: scipy_fir_figures(firs[taps], x, repeats) for taps in FIR_TAPS}
+    print()
+    print(f"long FIR, {n} samples, best of {repeats}: ours in 64-frame blocks (ns per sample per "
+          f"channel) against scipy on one channel; ratio = scipy / ours")
+    print(f"{'taps':>6} {'ch':>3} {'structure':<26} {'ours ns':>9} {'oaconv':>9} {'x':>6} "
+          f"{'lfilter':>9} {'x':>6} {'lf str64':>9} {'x':>6}")
+    rows = []
+    for r in ours["results"]:
+        taps = int(r["name"].split("_")[0][3:])
+        best = r["bank_ns"] if r["bank_ns"] is not None else r["block_ns"]
+        s = theirs[taps]
+        row = {"taps": taps, "channels": r["channels"], "structure": r["structure"],
+               "ours_ns_per_sample": best, "scipy_ns_per_sample": s,
+               "ratio_oaconvolve": s["oaconvolve_whole"] / best,
+               "ratio_lfilter_whole": s["lfilter_whole"] / best,
+               "ratio_lfilter_stream64": s["lfilter_stream64"] / best}
+        rows.append(row)
+        print(f"{taps:>6} {r['channels']:>3} {r['structure']:<26} {best:>9.2f} "
+              f"{s['oaconvolve_whole']:>9.2f} {row['ratio_oaconvolve']:>6.2f} "
+              f"{s['lfilter_whole']:>9.2f} {row['ratio_lfilter_whole']:>6.2f} "
+              f"{s['lfilter_stream64']:>9.2f} {row['ratio_lfilter_stream64']:>6.2f}")
+    return rows
 
 
 if __name__ == "__main__":

@@ -40,6 +40,11 @@ pub struct CallbackTiming {
     pub real_time_factor: f64,
     /// Callbacks slower than the block period.
     pub deadline_misses: usize,
+    /// Processor time the timing thread actually ran over the audio duration of the timed
+    /// callbacks, in percent of one core (Linux: /proc/thread-self/schedstat). Unlike the
+    /// wall-clock times above it leaves out time the thread waited while other programs ran,
+    /// so on a shared machine it is the honest cost; `null` where the kernel does not say.
+    pub cpu_share_pct: Option<f64>,
     /// The vector unit the kernels used ("baseline", "avx2", "avx512"; `vector_unit_name`
     /// spells it for people), and how many channels ran in vector lanes.
     pub vector_unit: &'static str,
@@ -69,7 +74,11 @@ pub fn time_callbacks(
     let mut output = vec![0.0f32; block_samples];
     let mut times_ns: Vec<u64> = Vec::with_capacity(blocks);
     let mut offset = 0;
+    let mut cpu_at_start = None;
     for i in 0..WARM_UP_BLOCKS + blocks {
+        if i == WARM_UP_BLOCKS {
+            cpu_at_start = thread_cpu_ns();
+        }
         if offset + block_samples > programme.len() {
             offset = 0;
         }
@@ -83,13 +92,31 @@ pub fn time_callbacks(
             times_ns.push(elapsed);
         }
     }
-    summarize(
+    let cpu_ns = match (cpu_at_start, thread_cpu_ns()) {
+        (Some(a), Some(b)) => Some(b.saturating_sub(a)),
+        _ => None,
+    };
+    let mut timing = summarize(
         &mut times_ns,
         block_frames,
         channels,
         sample_rate,
         channels_in_lanes,
-    )
+    );
+    let audio_ns = 1e9 * (blocks * block_frames) as f64 / sample_rate;
+    timing.cpu_share_pct = cpu_ns.map(|ns| 100.0 * ns as f64 / audio_ns);
+    timing
+}
+
+/// Nanoseconds this thread has run on a processor (the first field of Linux's schedstat,
+/// brought up to date at scheduler ticks: good to a tick over a run of seconds).
+fn thread_cpu_ns() -> Option<u64> {
+    std::fs::read_to_string("/proc/thread-self/schedstat")
+        .ok()?
+        .split_whitespace()
+        .next()?
+        .parse()
+        .ok()
 }
 
 fn summarize(
@@ -125,6 +152,7 @@ fn summarize(
         headroom_max_pct: headroom(max),
         real_time_factor: if n == 0 { 0.0 } else { mean_us / period_us },
         deadline_misses: times_ns.iter().filter(|&&t| us(t) > period_us).count(),
+        cpu_share_pct: None,
         vector_unit: detected_vector_unit().key(),
         vector_unit_name: detected_vector_unit().name(),
         channels_in_lanes,

@@ -5,9 +5,16 @@
 //! Timing runs the real engine (`Engine::process`, guards and all) on generated programme; no
 //! device is needed for it. The round trip needs the configured (or named) devices with the
 //! output looped back to the input.
+//!
+//! Besides a config's own figures: its callback time per channel against another config's in
+//! the same run ([`BaselineComparison`]), long FIRs both ways ([`bench_long_firs`]), and the
+//! recursive kernels against the floor of their recurrence ([`measure_recursion_limits`]).
 
 mod algorithmic_latency;
 mod callback_timing;
+mod chain_calibration;
+mod long_fir;
+mod recursion_limits;
 mod render;
 mod round_trip;
 
@@ -15,13 +22,19 @@ use serde::Serialize;
 
 pub use algorithmic_latency::{channel_latencies, ChannelLatency};
 pub use callback_timing::{percentile, time_callbacks, CallbackTiming};
+pub use chain_calibration::{calibrate_chains, ChainCalibration};
+pub use long_fir::{bench_long_firs, invented_long_fir, render_long_firs, LongFirTiming};
+pub use recursion_limits::{
+    bench_noise, invented_inverse, measure_recursion_limits, render_recursion_limits,
+    RecursionCost, RecursionLimits,
+};
 pub use render::render_text;
 pub use round_trip::{analyse, measure_round_trip, RoundTrip, RoundTripOptions};
 
 use crate::engine::{EngineError, Equalizer};
 use crate::io::live::{RingPlan, PREFILL_PERIODS};
 use crate::model::Link;
-use crate::pipeline::LinkPlan;
+use crate::pipeline::{plan_link, LinkPlan};
 
 /// Block size when the config names none (`[audio] buffer_frames`).
 pub const DEFAULT_BENCH_BLOCK_FRAMES: usize = 256;
@@ -35,6 +48,20 @@ pub struct BenchOptions {
     pub block_frames: Option<usize>,
     /// Measure the device round trip too.
     pub round_trip: Option<RoundTripOptions>,
+    /// Another link to time in the same run, at the same block size, per channel.
+    pub baseline: Option<Link>,
+}
+
+/// The config's callback time per channel against another config's, timed in the same run
+/// (each timed twice, alternately; the faster run of each kept).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BaselineComparison {
+    pub source: Option<String>,
+    pub callback: CallbackTiming,
+    /// (this config's p50 / its channels) / (the baseline's p50 / its channels).
+    pub per_channel_ratio_p50: f64,
+    /// The same with mean times.
+    pub per_channel_ratio_mean: f64,
 }
 
 /// The delay the live path adds besides the filters' own, for the timed block size.
@@ -62,6 +89,7 @@ pub struct BenchReport {
     pub round_trip: Option<RoundTrip>,
     /// Why the round trip could not be measured, when it was asked for and failed.
     pub round_trip_error: Option<String>,
+    pub baseline: Option<BaselineComparison>,
 }
 
 /// Times the configured filters and collects the latencies (and the round trip when asked).
@@ -77,13 +105,43 @@ pub fn bench_link(
         (None, None) => (DEFAULT_BENCH_BLOCK_FRAMES, "default"),
     };
     let block_frames = block_frames.max(1);
-    let callback = time_callbacks(
-        equalizer,
-        &link.runtime.engine,
-        link.sample_rate,
-        block_frames,
-        options.blocks.max(1),
-    );
+    let blocks = options.blocks.max(1);
+    let time = |eq: &Equalizer, l: &Link| {
+        time_callbacks(
+            eq.clone(),
+            &l.runtime.engine,
+            l.sample_rate,
+            block_frames,
+            blocks,
+        )
+    };
+    let mut callback = time(&equalizer, link);
+    let baseline = match &options.baseline {
+        None => None,
+        Some(other) => {
+            let other_eq = Equalizer::from_plan(&plan_link(other), 1)?;
+            let first = time(&other_eq, other);
+            let again = time(&equalizer, link);
+            let second = time(&other_eq, other);
+            if again.p50_us < callback.p50_us {
+                callback = again;
+            }
+            let theirs = if second.p50_us < first.p50_us {
+                second
+            } else {
+                first
+            };
+            let per = |t: &CallbackTiming, v: f64| v / t.channels.max(1) as f64;
+            Some(BaselineComparison {
+                source: other.source.as_ref().map(|p| p.display().to_string()),
+                per_channel_ratio_p50: per(&callback, callback.p50_us)
+                    / per(&theirs, theirs.p50_us).max(1e-9),
+                per_channel_ratio_mean: per(&callback, callback.mean_us)
+                    / per(&theirs, theirs.mean_us).max(1e-9),
+                callback: theirs,
+            })
+        }
+    };
     let channels = channel_latencies(plan);
     let ring = RingPlan {
         period_frames: block_frames,
@@ -119,5 +177,6 @@ pub fn bench_link(
         live_path,
         round_trip,
         round_trip_error,
+        baseline,
     })
 }

@@ -43,6 +43,31 @@ pub fn render_text(r: &BenchReport) -> String {
         if c.real_time_factor > 0.0 { 1.0 / c.real_time_factor } else { f64::INFINITY }
     );
     let _ = writeln!(s, "  deadline misses   {:>10}", c.deadline_misses);
+    if let Some(share) = c.cpu_share_pct {
+        let _ = writeln!(
+            s,
+            "  processor time    {share:>10.2} % of one core (time actually run, without waits for other programs)"
+        );
+    }
+    if let Some(b) = &r.baseline {
+        let t = &b.callback;
+        let _ = writeln!(
+            s,
+            "\nagainst             {} ({} channel(s)), same run, same block: p50 {:.1} µs, mean {:.1} µs",
+            b.source.as_deref().unwrap_or("(built-in)"),
+            t.channels,
+            t.p50_us,
+            t.mean_us
+        );
+        let _ = writeln!(
+            s,
+            "  per channel       {:.2} µs against {:.2} µs at p50: {:.2}× ({:.2}× on the means)",
+            c.p50_us / c.channels.max(1) as f64,
+            t.p50_us / t.channels.max(1) as f64,
+            b.per_channel_ratio_p50,
+            b.per_channel_ratio_mean
+        );
+    }
     let _ = writeln!(
         s,
         "\nalgorithmic latency (delay the inverse adds on purpose)"

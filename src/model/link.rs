@@ -25,6 +25,12 @@ pub enum Structure {
     Sections,
     /// Lattice–ladder (Gray–Markel).
     LatticeLadder,
+    /// The difference equation with only its non-zero taps (echo inverses and other mostly-zero
+    /// recursions). Chosen by the pipeline when it is cheaper and safe, not requested.
+    SparseRecursion,
+    /// A long FIR by partitioned FFT convolution behind a direct-form head (no added latency).
+    /// Chosen by the pipeline for long FIR inverses, not requested.
+    PartitionedConvolution,
 }
 
 impl Structure {
@@ -33,6 +39,8 @@ impl Structure {
             Structure::DirectForm2T => "direct form II transposed",
             Structure::Sections => "second-order sections",
             Structure::LatticeLadder => "lattice-ladder",
+            Structure::SparseRecursion => "sparse recursion",
+            Structure::PartitionedConvolution => "partitioned convolution",
         }
     }
 }

@@ -6,6 +6,7 @@ use crate::model::TransferFunction;
 
 use super::lattice::expand_lattice;
 use super::sections::{expand_sections, SectionCoefficients};
+use super::sparse_recursion::SparseTap;
 
 /// Coefficients of a realized structure exactly as the filter holds them (after rounding).
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -20,6 +21,19 @@ pub enum StructureCoefficients {
     },
     /// Reflection coefficients k₁…k_M and ladder taps v₀…v_M.
     LatticeLadder { k: Vec<f64>, v: Vec<f64> },
+    /// The non-zero bₖ and aₖ (k ≥ 1; a₀ = 1) with their delays, of a difference equation of
+    /// order `order`.
+    SparseRecursion {
+        order: usize,
+        numerator: Vec<SparseTap>,
+        denominator: Vec<SparseTap>,
+    },
+    /// FIR taps h[0 …], run as a direct-form head of `partition_size` taps and FFT partitions
+    /// of `partition_size` after it.
+    PartitionedConvolution {
+        taps: Vec<f64>,
+        partition_size: usize,
+    },
 }
 
 impl StructureCoefficients {
@@ -31,6 +45,22 @@ impl StructureCoefficients {
             StructureCoefficients::DirectForm2T { b, a } => (b.clone(), a.clone()),
             StructureCoefficients::Sections { gain, sections } => expand_sections(*gain, sections),
             StructureCoefficients::LatticeLadder { k, v } => expand_lattice(k, v),
+            StructureCoefficients::SparseRecursion {
+                order,
+                numerator,
+                denominator,
+            } => {
+                let (mut b, mut a) = (vec![0.0; order + 1], vec![0.0; order + 1]);
+                a[0] = 1.0;
+                for t in numerator {
+                    b[t.delay] = t.coefficient;
+                }
+                for t in denominator {
+                    a[t.delay] = t.coefficient;
+                }
+                (b, a)
+            }
+            StructureCoefficients::PartitionedConvolution { taps, .. } => (taps.clone(), vec![1.0]),
         };
         TransferFunction::new(b, a)
     }

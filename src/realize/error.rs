@@ -56,6 +56,11 @@ pub enum RealizeError {
         max_pole_radius: f64,
         floor: f64,
     },
+    /// The structure runs FIR filters only, and this design has poles.
+    NeedsFir {
+        structure: Structure,
+        denominator_order: usize,
+    },
 }
 
 /// A structure's name as the model spells it when serialised (the spelling users write).
@@ -81,6 +86,11 @@ fn alternatives(current: Structure) -> String {
         Structure::LatticeLadder => {
             format!("{} (or f64 coefficients)", spelling(Structure::Sections))
         }
+        Structure::SparseRecursion | Structure::PartitionedConvolution => format!(
+            "{} or {}",
+            spelling(Structure::Sections),
+            spelling(Structure::LatticeLadder)
+        ),
     }
 }
 
@@ -182,6 +192,17 @@ impl std::fmt::Display for RealizeError {
                  closer to the unit circle than the required margin of {floor:.0e}\n  \
                  help: use structure {}, or lower boost_cap_db so the inverse's poles sit \
                  further inside",
+                structure.name(),
+                alternatives(*structure)
+            ),
+            RealizeError::NeedsFir {
+                structure,
+                denominator_order,
+            } => write!(
+                f,
+                "the {} realization runs FIR filters only, and this design has a denominator of \
+                 order {denominator_order}\n  \
+                 help: use structure {}",
                 structure.name(),
                 alternatives(*structure)
             ),

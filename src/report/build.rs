@@ -6,14 +6,14 @@ use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
     AllPassEntry, BlockingZero, BoostCapEntry, Coefficients, FirEntry, InverseEntry, LinkReport,
-    MovedZeroEntry, PathReport, RealizationEntry, RootEntry, StepDownEntry, StructureSwitchEntry,
-    VerdictEntry, SCHEMA_VERSION,
+    MovedZeroEntry, PartitionedEntry, PathReport, RealizationEntry, RootEntry, SparseEntry,
+    StepDownEntry, StructureRefusalEntry, StructureSwitchEntry, VerdictEntry, SCHEMA_VERSION,
 };
 use crate::analysis::{AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict};
 use crate::design::{DesignError, DesignMethod, InverseDesign};
 use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
-use crate::pipeline::{LinkPlan, StructureSwitch};
-use crate::realize::Realization;
+use crate::pipeline::{LinkPlan, StructureRefusal, StructureSwitch};
+use crate::realize::{PoleEvidence, Realization, StructureCoefficients};
 
 /// The whole link's report. `source` is the config file the link came from, if any.
 pub fn link_report(plan: &LinkPlan, source: Option<&std::path::Path>) -> LinkReport {
@@ -22,7 +22,7 @@ pub fn link_report(plan: &LinkPlan, source: Option<&std::path::Path>) -> LinkRep
         .iter()
         .map(|p| {
             let realization = p.realization.as_ref().map(|r| match r {
-                Ok(r) => Ok(realization(r, p.switched.as_ref())),
+                Ok(r) => Ok(realization(r, p.switched.as_ref(), &p.refused)),
                 Err(e) => Err(e.to_string()),
             });
             path_report(
@@ -52,11 +52,17 @@ fn structure_key(structure: Structure) -> String {
         Structure::DirectForm2T => "direct_form_2t",
         Structure::Sections => "sections",
         Structure::LatticeLadder => "lattice_ladder",
+        Structure::SparseRecursion => "sparse_recursion",
+        Structure::PartitionedConvolution => "partitioned_convolution",
     }
     .to_string()
 }
 
-fn realization(r: &Realization, switched: Option<&StructureSwitch>) -> RealizationEntry {
+fn realization(
+    r: &Realization,
+    switched: Option<&StructureSwitch>,
+    refused: &[StructureRefusal],
+) -> RealizationEntry {
     RealizationEntry {
         structure: structure_key(r.structure),
         structure_name: r.structure.name().to_string(),
@@ -71,7 +77,62 @@ fn realization(r: &Realization, switched: Option<&StructureSwitch>) -> Realizati
             requested: structure_key(s.requested),
             reason: s.reason.clone(),
         }),
+        refused_first: refused
+            .iter()
+            .map(|f| StructureRefusalEntry {
+                structure: structure_key(f.structure),
+                reason: f.reason.clone(),
+            })
+            .collect(),
+        pole_check: match r.pole_evidence {
+            PoleEvidence::Roots => "roots",
+            PoleEvidence::DominantLeadingTap { .. } => "dominant_leading_tap",
+            PoleEvidence::NoPoles => "no_poles",
+        }
+        .to_string(),
+        sparse: sparse_entry(r),
+        partitioned: partitioned_entry(r),
     }
+}
+
+fn sparse_entry(r: &Realization) -> Option<SparseEntry> {
+    let StructureCoefficients::SparseRecursion {
+        order,
+        numerator,
+        denominator,
+    } = &r.coefficients
+    else {
+        return None;
+    };
+    let runs = r.coefficients.transfer_function();
+    Some(SparseEntry {
+        taps_touched: numerator.len() + denominator.len(),
+        order: *order,
+        dense_taps: 2 * order + 1,
+        runs_as: difference_equation(&runs.b, &runs.a),
+        recursive_tap_sum: match r.pole_evidence {
+            PoleEvidence::DominantLeadingTap { others } => Some(others),
+            _ => None,
+        },
+    })
+}
+
+fn partitioned_entry(r: &Realization) -> Option<PartitionedEntry> {
+    let StructureCoefficients::PartitionedConvolution {
+        taps,
+        partition_size,
+    } = &r.coefficients
+    else {
+        return None;
+    };
+    let b = (*partition_size).max(1);
+    Some(PartitionedEntry {
+        taps: taps.len(),
+        head_taps: taps.len().min(b),
+        partition_size: b,
+        fft_size: 2 * b,
+        fft_partitions: taps.len().saturating_sub(b).div_ceil(b),
+    })
 }
 
 /// Up to this many radii are quoted in a verdict sentence; the rest are counted.

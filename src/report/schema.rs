@@ -217,8 +217,53 @@ pub struct RealizationEntry {
     /// Largest pole radius of the realized filter, after rounding.
     pub max_pole_radius: f64,
     /// Why the requested structure was not used, when the realization switched to a sturdier
-    /// one (null when it runs as requested).
+    /// or cheaper one (null when it runs as requested).
     pub switched_from: Option<StructureSwitchEntry>,
+    /// Structures tried and refused before this one, in the order tried.
+    pub refused_first: Vec<StructureRefusalEntry>,
+    /// How the running poles were judged: "roots" (root finder and step-down test),
+    /// "dominant_leading_tap" (max_pole_radius is then an upper bound) or "no_poles".
+    pub pole_check: String,
+    /// For a sparse recursion: what it touches.
+    pub sparse: Option<SparseEntry>,
+    /// For a partitioned convolution: how the taps are cut.
+    pub partitioned: Option<PartitionedEntry>,
+}
+
+/// A structure tried and refused.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StructureRefusalEntry {
+    /// The config's spelling of the structure.
+    pub structure: String,
+    pub reason: String,
+}
+
+/// A sparse recursion's size.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SparseEntry {
+    /// Non-zero coefficients run a sample (numerator taps plus recursive taps).
+    pub taps_touched: usize,
+    /// Order of the difference equation (its longest delay).
+    pub order: usize,
+    /// Coefficients the dense direct form would touch a sample (2·order + 1).
+    pub dense_taps: usize,
+    /// The recursion as it runs, coefficients after rounding.
+    pub runs_as: String,
+    /// Σ|aₖ| of the recursive taps, when below 1 (the cheap pole check held).
+    pub recursive_tap_sum: Option<f64>,
+}
+
+/// A partitioned convolution's layout.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PartitionedEntry {
+    pub taps: usize,
+    /// Taps run as a direct-form head (no latency added).
+    pub head_taps: usize,
+    /// Partition size B; the FFTs have 2·B points.
+    pub partition_size: usize,
+    pub fft_size: usize,
+    /// Partitions after the head, run by FFT.
+    pub fft_partitions: usize,
 }
 
 /// A switch away from the requested structure.

@@ -410,6 +410,18 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
             realization.structure_name, realization.precision
         ),
     );
+    for refusal in &realization.refused_first {
+        line(
+            out,
+            4,
+            "tried first",
+            &format!(
+                "{}: refused: {}",
+                refusal.structure.replace('_', " "),
+                refusal.reason
+            ),
+        );
+    }
     if let Some(switch) = &realization.switched_from {
         line(
             out,
@@ -422,15 +434,42 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
             ),
         );
     }
-    line(
-        out,
-        4,
-        "max pole radius",
-        &format!(
-            "{} after rounding",
-            significant(realization.max_pole_radius)
+    let radius = significant(realization.max_pole_radius);
+    let poles = match (realization.pole_check.as_str(), &realization.sparse) {
+        ("no_poles", _) => "none (an FIR)".to_string(),
+        ("dominant_leading_tap", Some(sparse)) => format!(
+            "below {radius} after rounding: a₀ = 1 outweighs the other recursive taps (Σ|aₖ| = \
+             {}), which puts every pole inside that radius without finding roots",
+            significant(sparse.recursive_tap_sum.unwrap_or(f64::NAN))
         ),
-    );
+        _ => format!("{radius} after rounding"),
+    };
+    line(out, 4, "max pole radius", &poles);
+    if let Some(sparse) = &realization.sparse {
+        line(out, 4, "runs as", &first_terms(&sparse.runs_as));
+        line(
+            out,
+            4,
+            "touches",
+            &format!(
+                "{} of the {} coefficients a dense direct form of order {} touches a sample",
+                sparse.taps_touched, sparse.dense_taps, sparse.order
+            ),
+        );
+        return;
+    }
+    if let Some(p) = &realization.partitioned {
+        line(
+            out,
+            4,
+            "layout",
+            &format!(
+                "{} taps: the first {} as a direct-form head, then {} partitions of {} by FFTs \
+                 of {} points; no latency added",
+                p.taps, p.head_taps, p.fft_partitions, p.partition_size, p.fft_size
+            ),
+        );
+    }
     coefficient_lines(out, 4, &realization.coefficients);
 }
 

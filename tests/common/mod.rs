@@ -29,6 +29,32 @@ pub fn inverse_set(channel: &TransferFunction, channels: usize, generation: u64)
         .with_warm_up(warm_up)
 }
 
+/// Exact-inverse filters for `channel` realized in `structure` (f32 coefficients).
+pub fn structure_set(
+    channel: &TransferFunction,
+    structure: Structure,
+    channels: usize,
+    generation: u64,
+) -> Equalizer {
+    let analysis = analyse(channel, 1e-9).expect("analysis");
+    let design = design_exact(channel, &analysis, 48_000.0).expect("invertible test channel");
+    let realization =
+        realize(&design.inverse, structure, CoefficientPrecision::F32).expect("realizable");
+    Equalizer::from_filters(vec![realization.filter; channels], 4.0, generation)
+}
+
+/// A long decaying FIR of `taps` taps (Σ|h| = 1) as a partitioned convolution on every channel.
+pub fn long_fir_set(taps: usize, channels: usize, generation: u64) -> Equalizer {
+    let h = redress::bench::invented_long_fir(taps);
+    let realization = realize(
+        &TransferFunction::new(h, vec![1.0]),
+        Structure::PartitionedConvolution,
+        CoefficientPrecision::F32,
+    )
+    .expect("FIR realizes");
+    Equalizer::from_filters(vec![realization.filter; channels], 1.0, generation)
+}
+
 /// A deliberately unstable set, built straight from coefficients (the test-only way round
 /// validation): 1/(1 − 1.5z⁻¹) grows by half again every sample.
 pub fn runaway_set(channels: usize, generation: u64) -> Equalizer {

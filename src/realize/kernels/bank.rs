@@ -100,10 +100,16 @@ impl ChannelBank {
         detected_vector_unit();
         let channels = filters.len();
         let mut by_shape: BTreeMap<LaneShape, Vec<usize>> = BTreeMap::new();
-        for (c, f) in filters.iter().enumerate() {
-            by_shape.entry(LaneShape::of(f)).or_default().push(c);
-        }
         let mut units = Vec::new();
+        for (c, f) in filters.iter().enumerate() {
+            match LaneShape::of(f) {
+                Some(shape) => by_shape.entry(shape).or_default().push(c),
+                None => units.push(Unit::Alone {
+                    channel: c,
+                    filter: f.clone(),
+                }),
+            }
+        }
         for (shape, members) in &by_shape {
             let mut rest: &[usize] = members;
             while !rest.is_empty() {

@@ -141,6 +141,8 @@ pub trait Arithmetic {
     fn state_update(b: f64, x: f64, a: f64, y: f64, next: f64) -> f64;
     /// One lattice stage: f − k·g, then k·f′ + g and y + v·(k·f′ + g); returns (f′, g′, y′).
     fn lattice_stage(k: f64, g_below: f64, f: f64, v: f64, y: f64) -> (f64, f64, f64);
+    /// a·b + c (the taps of the sparse recursion and the convolutions' accumulations).
+    fn multiply_add(a: f64, b: f64, c: f64) -> f64;
 }
 
 /// The per-sample path's own arithmetic.
@@ -172,6 +174,10 @@ impl Arithmetic for Plain {
         let g = k * f + g_below;
         (f, g, y + v * g)
     }
+    #[inline(always)]
+    fn multiply_add(a: f64, b: f64, c: f64) -> f64 {
+        a * b + c
+    }
 }
 
 impl Arithmetic for Fused {
@@ -196,6 +202,10 @@ impl Arithmetic for Fused {
         let f = (-k).mul_add(g_below, f);
         let g = k.mul_add(f, g_below);
         (f, g, v.mul_add(g, y))
+    }
+    #[inline(always)]
+    fn multiply_add(a: f64, b: f64, c: f64) -> f64 {
+        a.mul_add(b, c)
     }
 }
 

@@ -4,14 +4,18 @@
 //! kernels, a wavefront over sections, channels in vector lanes) must not change any filter's
 //! own sequence of operations, so its output must equal `process_sample`'s. Measure: max over
 //! n of |y_fast(n) − y_plain(n)| ≤ 1e-12 × max over n of |y_plain(n)| (identical to the bit except
-//! for sections on CPUs with FMA, where the kernels fuse multiply-adds). Designs: random stable poles and zeros (radii 0.05…0.97, conjugate
-//! pairs and reals, orders 1…34), realized in all three structures at f32 and f64
-//! coefficients; blocks cut at random lengths, including 0 and 1.
+//! for sections on CPUs with FMA, where the kernels fuse multiply-adds, and for the partitioned
+//! convolution, whose block path regroups the sum through FFTs and fuses as well). Designs: random
+//! stable poles and zeros (radii 0.05…0.97, conjugate pairs and reals, orders 1…34), realized
+//! in the three dense structures and as a sparse recursion at f32 and f64 coefficients, and
+//! their first 300 impulse-response taps as a partitioned convolution; blocks cut at random
+//! lengths, including 0 and 1.
 
 use num_complex::Complex64;
 use proptest::prelude::*;
 
 use crate::model::{CoefficientPrecision, Structure, TransferFunction};
+use crate::numeric::impulse::impulse_response;
 use crate::numeric::poly::{from_roots, multiply};
 use crate::realize::{realize, Filter};
 
@@ -51,18 +55,29 @@ fn design(max_pairs: usize) -> impl Strategy<Value = TransferFunction> {
         })
 }
 
+/// The design in every structure that can run it, and its impulse response cut to a length
+/// that reaches past the first FFT partitions, as a partitioned convolution.
 fn filters_of(design: &TransferFunction) -> Vec<Filter> {
     let mut out = Vec::new();
     for structure in [
         Structure::DirectForm2T,
         Structure::Sections,
         Structure::LatticeLadder,
+        Structure::SparseRecursion,
     ] {
         for precision in [CoefficientPrecision::F32, CoefficientPrecision::F64] {
             if let Ok(r) = realize(design, structure, precision) {
                 out.push(r.filter);
             }
         }
+    }
+    let fir = TransferFunction::new(impulse_response(&design.b, &design.a, 300), vec![1.0]);
+    if let Ok(r) = realize(
+        &fir,
+        Structure::PartitionedConvolution,
+        CoefficientPrecision::F64,
+    ) {
+        out.push(r.filter);
     }
     out
 }
@@ -202,6 +217,8 @@ fn kind(filter: &Filter) -> &'static str {
         Filter::DirectForm2T(_) => "direct form",
         Filter::Sections(_) => "sections",
         Filter::LatticeLadder(_) => "lattice",
+        Filter::SparseRecursion(_) => "sparse recursion",
+        Filter::PartitionedConvolution(_) => "partitioned convolution",
     }
 }
 

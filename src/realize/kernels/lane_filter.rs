@@ -23,11 +23,15 @@ pub enum LaneShape {
 }
 
 impl LaneShape {
-    pub fn of(filter: &Filter) -> Self {
+    /// The lane shape of `filter`; `None` for structures that always run alone (a sparse
+    /// recursion's taps and a partitioned convolution's blocks are already vector work within
+    /// one channel).
+    pub fn of(filter: &Filter) -> Option<Self> {
         match filter {
-            Filter::DirectForm2T(f) => LaneShape::DirectForm2T(f.order()),
-            Filter::Sections(f) => LaneShape::Sections(f.section_count()),
-            Filter::LatticeLadder(f) => LaneShape::LatticeLadder(f.order()),
+            Filter::DirectForm2T(f) => Some(LaneShape::DirectForm2T(f.order())),
+            Filter::Sections(f) => Some(LaneShape::Sections(f.section_count())),
+            Filter::LatticeLadder(f) => Some(LaneShape::LatticeLadder(f.order())),
+            Filter::SparseRecursion(_) | Filter::PartitionedConvolution(_) => None,
         }
     }
 }
@@ -66,6 +70,7 @@ impl<const L: usize> LaneFilter<L> {
                     .collect();
                 Some(LaneFilter::LatticeLadder(LaneLattice::new(&fs?)))
             }
+            Filter::SparseRecursion(_) | Filter::PartitionedConvolution(_) => None,
         }
     }
 

@@ -6,16 +6,22 @@
 //!   sample n − k inside the block, no latency added);
 //! - [`ChannelBank`]: many channels, those with filters of one shape side by side in vector
 //!   lanes (struct of arrays over 4 or 8 channels);
-//! - [`dispatch`]: compiles them for AVX2 / AVX-512 as well and picks at run time.
+//! - [`dispatch`]: compiles them for AVX2 / AVX-512 as well and picks at run time;
+//! - `sparse_block` (sparse recursions, a tap at a time over runs shorter than the shortest
+//!   recursive delay), `fir_head` and `spectral_mac` (the partitioned convolution's direct-form
+//!   head and its frequency-domain products): these filters always run alone, never in lanes.
 //!
 //! Every path performs each filter's own operations in its own order, so the results are the
 //! same to the bit as the per-sample path, except second-order sections on CPUs with FMA
 //! (AVX2/AVX-512), which fuse multiply-adds (one rounding instead of two) to halve the
-//! recurrence's critical path; the equality tests bound every path at 1e-12 of the peak.
+//! recurrence's critical path, and the partitioned convolution, whose block path fuses its
+//! multiply-adds too (an FIR: nothing feeds the difference back); the equality tests bound every
+//! path at 1e-12 of the peak.
 
 mod bank;
 mod direct_form_block;
 pub mod dispatch;
+pub(crate) mod fir_head;
 mod lane_direct_form;
 mod lane_filter;
 mod lane_lattice;
@@ -24,6 +30,8 @@ mod lattice_block;
 mod mono;
 mod sections_wavefront;
 mod simd_wavefront;
+pub(crate) mod sparse_block;
+pub(crate) mod spectral_mac;
 mod vector;
 
 #[cfg(test)]
