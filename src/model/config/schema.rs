@@ -24,9 +24,16 @@ pub(crate) const SAMPLE_RATE_HZ: &str = "sample_rate_hz";
 pub(crate) const CHANNEL_COUNT: &str = "channel_count";
 pub(crate) const CIRCLE_TOLERANCE: &str = "circle_tolerance";
 pub(crate) const PRECISION: &str = "precision";
+pub(crate) const FORMAT_VERSION: &str = "format_version";
 pub(crate) const LINK_TABLE: TableSchema = TableSchema {
     name: "[link]",
-    keys: &[SAMPLE_RATE_HZ, CHANNEL_COUNT, CIRCLE_TOLERANCE, PRECISION],
+    keys: &[
+        FORMAT_VERSION,
+        SAMPLE_RATE_HZ,
+        CHANNEL_COUNT,
+        CIRCLE_TOLERANCE,
+        PRECISION,
+    ],
 };
 
 pub(crate) const LABEL: &str = "label";
