@@ -20,6 +20,8 @@ pub const POLE_MARGIN_FLOOR: f64 = 1e-6;
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StructureSwitch {
     pub requested: Structure,
+    /// True when the config named the requested structure, false when it was the default.
+    pub configured: bool,
     pub used: Structure,
     /// Why the requested structure was not used.
     pub reason: String,
@@ -129,19 +131,22 @@ fn realize_safely(
     // An FIR inverse has no poles for rounding to move: run it as the plain tapped delay line
     // (direct form), which is exact, cheapest and needs no root finding.
     if design.inverse.a.len() == 1 && path.structure != Structure::DirectForm2T {
-        let switch = StructureSwitch {
+        // Reported only when the config asked for the other structure: a default is a choice
+        // the pipeline makes, not one it overrules.
+        let switch = path.inverse.structure_configured.then(|| StructureSwitch {
             requested: path.structure,
+            configured: true,
             used: Structure::DirectForm2T,
             reason: "the inverse is FIR: it has no poles to protect, so it runs as a direct-form \
                      tapped delay line, exact and always stable"
                 .to_string(),
-        };
+        });
         let result = checked(realize(
             &design.inverse,
             Structure::DirectForm2T,
             path.precision,
         ));
-        return (result, Some(switch));
+        return (result, switch);
     }
     let first = checked(realize(&design.inverse, path.structure, path.precision));
     let reason = match &first {
@@ -158,6 +163,7 @@ fn realize_safely(
         if let Ok(r) = checked(realize(&design.inverse, used, path.precision)) {
             let switch = StructureSwitch {
                 requested: path.structure,
+                configured: path.inverse.structure_configured,
                 used,
                 reason: reason.clone(),
             };

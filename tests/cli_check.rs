@@ -36,7 +36,7 @@ fn every_example_config_reports_in_text_and_json_and_they_agree() {
             stderr(&text_run)
         );
         assert_eq!(json["schema"], "redress-link-report");
-        assert_eq!(json["schema_version"], 1);
+        assert_eq!(json["schema_version"], 2);
         assert_eq!(json["runnable"], Value::Bool(json_code == 0), "{name}");
         assert!(!paths(&json).is_empty(), "{name}: no paths");
         for path in paths(&json) {
@@ -138,7 +138,7 @@ fn paging_delay_leaves_six_samples_and_inverts_the_rest() {
     // G = (1 − 0.15 z⁻¹)/(0.7 + 0.25 z⁻¹ + 0.05 z⁻²), normalised to a₀ = 1.
     assert_eq!(
         inverse["difference_equation"],
-        "y[n] = 1.42857 x[n] − 0.214286 x[n−1] − 0.357143 y[n−1] − 0.0714286 y[n−2]"
+        "y[n] = 1.42857 x[n] - 0.214286 x[n-1] - 0.357143 y[n-1] - 0.0714286 y[n-2]"
     );
     let text = squeeze(&stdout(&redress(&["check", "configs/paging_delay.toml"])));
     assert!(text.contains("bulk delay 6 samples (0.375 ms)"), "{text}");
