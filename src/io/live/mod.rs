@@ -18,6 +18,7 @@ mod devices;
 mod duplex;
 mod error;
 mod playback_side;
+mod quiet_stderr;
 pub mod ring;
 mod round_trip;
 mod samples;
