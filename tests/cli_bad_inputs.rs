@@ -325,6 +325,18 @@ fn catalogue(f: &Files) -> Vec<Case> {
             &["not a socket is in the way"],
         ),
         case(
+            "run with a socket where no folder can be made",
+            &[
+                "run",
+                &echo,
+                "--simulate",
+                "--socket",
+                "/proc/no-such-redress-folder/s.sock",
+            ],
+            1,
+            &["cannot create /proc/no-such-redress-folder"],
+        ),
+        case(
             "run with a socket under a file",
             &[
                 "run",

@@ -31,10 +31,22 @@ pub fn prepare_private_dir(socket: &Path) -> Result<(), String> {
             .recursive(true)
             .mode(0o700)
             .create(dir)
-            .map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
+            .map_err(|e| {
+                format!(
+                    "cannot create {}: {}",
+                    dir.display(),
+                    crate::os_error::plain_os_error(&e)
+                )
+            })?;
         return Ok(());
     }
-    let meta = fs::metadata(dir).map_err(|e| format!("cannot inspect {}: {e}", dir.display()))?;
+    let meta = fs::metadata(dir).map_err(|e| {
+        format!(
+            "cannot inspect {}: {}",
+            dir.display(),
+            crate::os_error::plain_os_error(&e)
+        )
+    })?;
     if !meta.is_dir() {
         return Err(format!("{} is not a directory", dir.display()));
     }
