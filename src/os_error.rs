@@ -36,12 +36,16 @@ pub fn plain_os_error(error: &Error) -> String {
 }
 
 /// "Text (os error 17)" → "text": the standard library's wording without the number, first
-/// letter lowered so it reads inside a sentence.
-fn without_error_number(text: &str) -> String {
-    let bare = match text.rfind(" (os error ") {
-        Some(at) if text.ends_with(')') => &text[..at],
-        _ => text,
-    };
+/// letter lowered so it reads inside a sentence. For messages that reach us as text from a
+/// library (a drawing backend, say) with an OS error inside.
+pub fn without_error_number(text: &str) -> String {
+    let mut bare = text.to_string();
+    while let Some(at) = bare.find(" (os error ") {
+        let Some(close) = bare[at..].find(')') else {
+            break;
+        };
+        bare.replace_range(at..at + close + 1, "");
+    }
     let mut chars = bare.chars();
     match chars.next() {
         Some(first) => first.to_lowercase().chain(chars).collect(),
@@ -76,5 +80,9 @@ mod tests {
         assert!(!text.is_empty());
         assert_eq!(without_error_number("Odd (os error 99)"), "odd");
         assert_eq!(without_error_number("plain"), "plain");
+        assert_eq!(
+            without_error_number("Drawing failed: Permission denied (os error 13), giving up"),
+            "drawing failed: Permission denied, giving up"
+        );
     }
 }
