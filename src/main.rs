@@ -214,7 +214,8 @@ fn main() -> ExitCode {
             keep_format,
             block,
             replace,
-        } => apply(
+        } => file_run(
+            true,
             &config,
             &input,
             &output,
@@ -230,7 +231,8 @@ fn main() -> ExitCode {
             output,
             keep_format,
             replace,
-        } => distort(
+        } => file_run(
+            false,
             &config,
             &input,
             &output,
@@ -345,41 +347,41 @@ fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
     }
 }
 
-fn apply(
+/// For a command that reads CONFIG and INPUT and writes OUTPUT: the output is checked first
+/// (never an input, an existing file only when asked), then the config is read.
+fn load_to_write(
     config: &Path,
     input: &Path,
     output: &Path,
-    options: FileRunOptions,
     existing: Existing,
-) -> u8 {
+) -> Result<Link, u8> {
     if !outputs_allowed(&[output], &[config, input], existing) {
-        return exit::FAILED;
+        return Err(exit::FAILED);
     }
-    let link = match load(config) {
-        Ok(link) => link,
-        Err(code) => return code,
-    };
-    let plan = plan_link(&link);
-    let result = io::apply_file(&plan, input, output, options, &mut print_progress);
-    finish_run("equalized", input, output, result)
+    load(config)
 }
 
-fn distort(
+/// `apply` (`equalize`: the link's inverse) or `distort` (the link itself), INPUT to OUTPUT.
+fn file_run(
+    equalize: bool,
     config: &Path,
     input: &Path,
     output: &Path,
     options: FileRunOptions,
     existing: Existing,
 ) -> u8 {
-    if !outputs_allowed(&[output], &[config, input], existing) {
-        return exit::FAILED;
-    }
-    let link = match load(config) {
+    let link = match load_to_write(config, input, output, existing) {
         Ok(link) => link,
         Err(code) => return code,
     };
-    let result = io::distort_file(&link, input, output, options, &mut print_progress);
-    finish_run("distorted", input, output, result)
+    let progress = &mut print_progress;
+    if equalize {
+        let result = io::apply_file(&plan_link(&link), input, output, options, progress);
+        finish_run("equalized", input, output, result)
+    } else {
+        let result = io::distort_file(&link, input, output, options, progress);
+        finish_run("distorted", input, output, result)
+    }
 }
 
 fn print_progress(percent: u32) {

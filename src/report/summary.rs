@@ -5,7 +5,7 @@ use std::fmt::Write;
 
 use super::numbers::{fixed, significant};
 use super::schema::{LinkReport, PathReport};
-use super::text::{channels_phrase, summary_line};
+use super::text::{path_heading, summary_line};
 
 pub fn render_summary(report: &LinkReport) -> String {
     let mut out = String::new();
@@ -27,12 +27,7 @@ pub fn render_summary(report: &LinkReport) -> String {
 }
 
 fn path_lines(out: &mut String, path: &PathReport, number: usize, total: usize) {
-    let _ = writeln!(
-        out,
-        "path {number} of {total}: {}  ({})",
-        path.label,
-        channels_phrase(&path.channels)
-    );
+    path_heading(out, path, number, total);
     let _ = writeln!(out, "  verdict: {}", path.verdict.summary);
     let Some(inverse) = &path.inverse else {
         return;

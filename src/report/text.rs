@@ -99,13 +99,18 @@ pub(super) fn channels_phrase(channels: &[usize]) -> String {
     )
 }
 
-fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize) {
+/// "path 1 of 2: label  (audio channel 0)", the line every path's block starts with.
+pub(super) fn path_heading(out: &mut String, path: &PathReport, number: usize, total: usize) {
     let _ = writeln!(
         out,
         "path {number} of {total}: {}  ({})",
         path.label,
         channels_phrase(&path.channels)
     );
+}
+
+fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize) {
+    path_heading(out, path, number, total);
     line(out, 2, "described as", &path.form_name);
     coefficient_list(out, 2, "channel", "b", &path.channel.b);
     coefficient_list(out, 2, "", "a", &path.channel.a);
