@@ -396,7 +396,7 @@ fn fail(e: &MeasureError) -> u8 {
         MeasureError::BadStimulus { .. }
         | MeasureError::OrdersTooHigh { .. }
         | MeasureError::FirTooLong { .. } => exit::INVALID,
-        MeasureError::NotRunnable { .. } => exit::NOT_RUNNABLE,
+        MeasureError::NotRunnable { .. } | MeasureError::Simulation(_) => exit::NOT_RUNNABLE,
         _ => exit::FAILED,
     }
 }

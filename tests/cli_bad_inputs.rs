@@ -592,6 +592,12 @@ fn catalogue(f: &Files) -> Vec<Case> {
             ],
         ),
         case(
+            "simulate a recording through an unstable channel",
+            &["simulate-recording", &p(&f.unstable), &p(&f.mono_wav), &out],
+            3,
+            &["the channel itself is unstable"],
+        ),
+        case(
             "a device no one has",
             &[
                 "run",
