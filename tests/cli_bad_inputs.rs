@@ -55,6 +55,7 @@ struct Files {
     newer_format: PathBuf,
     mono_16k: PathBuf,
     unknown_device: PathBuf,
+    typographic_minus: PathBuf,
 }
 
 fn files() -> Files {
@@ -133,7 +134,14 @@ fn files() -> Files {
          difference_equation = { b = [1.0, -0.5], a = [1.0] }\n\n[audio]\n\
          input_device = \"no such rack amp anywhere\"\n",
     );
+    let typographic_minus = write_file(
+        &d,
+        "pasted.toml",
+        "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+         difference_equation = { b = [1.0, \u{2212}0.5], a = [1.0] }\n",
+    );
     Files {
+        typographic_minus,
         hand_written,
         fractional_rate,
         newer_format,
@@ -558,6 +566,12 @@ fn catalogue(f: &Files) -> Vec<Case> {
             &["not a whole number"],
         ),
         case(
+            "typographic minus in a config",
+            &["check", &p(&f.typographic_minus)],
+            2,
+            &["pasted.toml:7:", "U+2212", "write the minus as `-`"],
+        ),
+        case(
             "config from a newer format",
             &["check", &p(&f.newer_format)],
             2,
@@ -653,7 +667,9 @@ fn every_bad_command_line_fails_as_catalogued() {
             why.push("panicked".to_string());
         }
         for internal in NEVER_IN_A_MESSAGE {
-            if our_lines(&err).any(|l| l.contains(internal)) {
+            // The typographic-minus case quotes the user's own line, minus and all.
+            let quotes_it = internal == "\u{2212}" && c.name.contains("typographic");
+            if !quotes_it && our_lines(&err).any(|l| l.contains(internal)) {
                 why.push(format!("stderr shows {internal:?}"));
             }
         }
