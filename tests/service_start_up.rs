@@ -11,7 +11,7 @@ use std::time::{Duration, Instant};
 
 use serde_json::Value;
 
-use service_support::{start, temp_dir, u, BROKEN, LINK_A};
+use service_support::{start, temp_dir, u, Service, BROKEN, LINK_A};
 
 fn redress(args: &[&str], env: &[(&str, &Path)]) -> std::process::Output {
     let mut command = Command::new(env!("CARGO_BIN_EXE_redress"));
@@ -101,7 +101,7 @@ fn status_finds_the_service_as_the_user_unit_runs_it_and_shows_schema_and_errors
     let config = dir.join("link.toml");
     std::fs::write(&config, LINK_A).unwrap();
     // As the user unit starts it: no --socket, the user manager's XDG_RUNTIME_DIR.
-    let mut child = Command::new(env!("CARGO_BIN_EXE_redress"))
+    let child = Command::new(env!("CARGO_BIN_EXE_redress"))
         .args(["run", config.to_str().unwrap(), "--simulate", "-v"])
         .env("XDG_RUNTIME_DIR", &runtime)
         .stdin(Stdio::null())
@@ -109,6 +109,12 @@ fn status_finds_the_service_as_the_user_unit_runs_it_and_shows_schema_and_errors
         .stderr(std::fs::File::create(dir.join("log")).unwrap())
         .spawn()
         .unwrap();
+    // Held as a Service so that it is killed if an assertion fails on the way.
+    let mut service = Service {
+        child,
+        socket: runtime.join("redress/status.sock"),
+        log: dir.join("log"),
+    };
     let env = [("XDG_RUNTIME_DIR", runtime.as_path())];
     let found = status_when_ready(&["status", "--json"], &env);
     let log = || std::fs::read_to_string(dir.join("log")).unwrap_or_default();
@@ -134,12 +140,7 @@ fn status_finds_the_service_as_the_user_unit_runs_it_and_shows_schema_and_errors
 
     // A broken reload: the status text gives the whole error, help line included.
     std::fs::write(&config, BROKEN).unwrap();
-    let pid = child.id().to_string();
-    assert!(Command::new("kill")
-        .args(["-HUP", &pid])
-        .status()
-        .unwrap()
-        .success());
+    service.signal("HUP");
     let started = Instant::now();
     let text = loop {
         let out = redress(&["status"], &env);
@@ -157,8 +158,7 @@ fn status_finds_the_service_as_the_user_unit_runs_it_and_shows_schema_and_errors
     assert!(text.contains("exact inverse in"), "{text}");
 
     // A client that connects and hangs up at once costs the service nothing.
-    let socket = runtime.join("redress/status.sock");
-    drop(std::os::unix::net::UnixStream::connect(&socket).unwrap());
+    drop(std::os::unix::net::UnixStream::connect(&service.socket).unwrap());
     let again = redress(&["status", "--json"], &env);
     assert!(again.status.success());
     assert!(
@@ -167,8 +167,8 @@ fn status_finds_the_service_as_the_user_unit_runs_it_and_shows_schema_and_errors
             "/reloads/failed"
         ) >= 1
     );
-    let _ = Command::new("kill").args(["-TERM", &pid]).status();
-    assert_eq!(child.wait().unwrap().code(), Some(0));
+    service.signal("TERM");
+    assert_eq!(service.wait_exit().code(), Some(0));
 }
 
 fn unit(name: &str) -> String {
