@@ -173,6 +173,9 @@ fn a_mono_stimulus_into_a_stereo_link_gives_one_path_per_channel() {
     let link = load_link(&fitted).unwrap();
     assert_eq!(link.channel_count, 2);
     assert_eq!(link.paths.len(), 2);
+    // The fitted config says which config format it is written in (README, Config format).
+    let text = std::fs::read_to_string(&fitted).unwrap();
+    assert!(text.contains("[link]\nformat_version = 1\n"), "{text}");
     assert!(ok(&[&"check", &fitted]).contains("every path has a stable inverse"));
 }
 
