@@ -226,3 +226,33 @@ fn the_two_units_put_the_socket_where_status_looks() {
     assert!(socket.starts_with("/run/redress"));
     assert!(redress::control::status_socket_candidates().contains(&socket));
 }
+
+// Source: common practice — a simulation must feed the filters audio at the rate and channel
+// count they were designed for (as `apply` refuses a WAV of the wrong rate); a reload that
+// breaks that is refused and the running filters stay.
+#[test]
+fn a_reload_that_no_longer_matches_the_true_link_is_refused() {
+    let dir = temp_dir("true-link-reload");
+    let truth = dir.join("truth.toml");
+    std::fs::write(&truth, LINK_A).unwrap();
+    let config = dir.join("link.toml");
+    std::fs::write(&config, LINK_A).unwrap();
+    let mut service = start(
+        &dir,
+        &config,
+        &["--simulate", "--true-link", truth.to_str().unwrap()],
+        &[],
+    );
+    service.wait_ready();
+    std::fs::write(&config, LINK_A.replace("48000", "16000")).unwrap();
+    service.signal("HUP");
+    let doc = service.wait_for("the reload to be refused", |d| {
+        d.pointer("/reloads/failed").and_then(Value::as_u64) == Some(1)
+    });
+    let why = doc["reloads"]["last_error"].as_str().unwrap_or_default();
+    assert!(why.contains("sample rate 48000 Hz"), "{why}");
+    assert!(why.contains("16000 Hz"), "{why}");
+    assert_eq!(u(&doc, "/config_generation"), 1);
+    service.signal("TERM");
+    assert_eq!(service.wait_exit().code(), Some(0));
+}
