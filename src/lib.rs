@@ -15,6 +15,7 @@ pub mod io;
 pub mod measure;
 pub mod model;
 pub mod numeric;
+pub mod os_error;
 pub mod pipeline;
 pub mod realize;
 pub mod report;

@@ -1,42 +1,27 @@
 //! The `redress` command: parses arguments, calls the library, prints. No signal processing here.
 
+mod closed_pipe;
+mod exit_codes;
 mod measure_commands;
+mod number_arg;
 
+use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-use clap::{Parser, Subcommand};
+use clap::{CommandFactory, FromArgMatches, Parser, Subcommand};
 
+use exit_codes as exit;
+use number_arg::{number, whole_in};
 use redress::control::{
-    default_socket_path, init_logging, query_status, render_status_text, run_service, ServiceError,
-    ServiceOptions, SourceChoice,
+    init_logging, locate_status_socket, query_status, render_status_text, run_service,
+    ServiceError, ServiceOptions, SourceChoice, CAUTION,
 };
-use redress::io::{self, FileRunOptions, FileRunSummary, ProgrammeSpec};
+use redress::io::{self, check_output_files, Existing, FileRunOptions, FileRunSummary};
 use redress::model::config::{load_link, parse_link};
 use redress::model::Link;
-use redress::pipeline::{plan_link, LinkPlan};
-use redress::report::{link_report, render_json, render_text};
-
-/// Exit codes, as documented in `--help` and the README.
-mod exit {
-    /// The command did what was asked.
-    pub const OK: u8 = 0;
-    /// Something outside the config went wrong: a file could not be read or written, a WAV
-    /// file was unusable, a comparison could not be made.
-    pub const FAILED: u8 = 1;
-    /// The config is invalid (or the arguments are: clap uses 2 for those too).
-    pub const INVALID_CONFIG: u8 = 2;
-    /// The config is valid, but some path has no runnable inverse (no stable causal inverse and
-    /// no substitute allowed, or refused at design or realization).
-    pub const NOT_RUNNABLE: u8 = 3;
-}
-
-const EXIT_CODES: &str = "\
-Exit codes:
-  0  done (for `check`: every path has an inverse ready to run)
-  1  a file could not be read or written, or a WAV file was unusable
-  2  the config (or the command line) is invalid
-  3  the config is valid but some path has no runnable inverse";
+use redress::pipeline::plan_link;
+use redress::report::{link_report, render_json, render_summary, render_text};
 
 /// The demo's link when no config is named: a line with one echo, built into the binary so the
 /// demo needs no files.
@@ -45,7 +30,7 @@ const DEMO_CONFIG: &str = include_str!("../configs/echo_line.toml");
 
 /// Derive, check and run stable causal inverse filters for measured audio links.
 #[derive(Parser)]
-#[command(name = "redress", version, about, after_help = EXIT_CODES)]
+#[command(name = "redress", version, about, after_help = exit::ALL)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -54,51 +39,65 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     /// Analyse every path of a link config: zeros, poles, verdict, inverse, realization.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = exit::CHECK)]
     Check {
         /// The link config (TOML).
         config: PathBuf,
         /// Print the report as JSON (schema in the README) instead of text.
         #[arg(long)]
         json: bool,
-        /// Also write pictures (SVG) of every path and an index.html into this folder.
+        /// Also write pictures (SVG) of every path and an index.html into this folder (created
+        /// when missing).
         #[arg(long, value_name = "DIR")]
         plot: Option<PathBuf>,
     },
     /// Equalize a WAV file with the link's inverse, block by block.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = exit::APPLY)]
     Apply {
+        /// The link config (TOML).
         config: PathBuf,
         /// Input WAV: 16/24/32-bit integer or 32-bit float, the link's channel count and rate.
         input: PathBuf,
-        /// Output WAV: 32-bit float unless --keep-format.
+        /// Output WAV: 32-bit float unless --keep-format. Never the input; an existing file
+        /// only with --replace.
         output: PathBuf,
         /// Write the input's own sample format (integer output is rounded and clamped).
         #[arg(long)]
         keep_format: bool,
         /// Frames per processing block.
         #[arg(long, default_value_t = io::DEFAULT_BLOCK_FRAMES as u32,
-              value_parser = clap::value_parser!(u32).range(1..=1_048_576))]
+              value_parser = whole_in(1, 1_048_576))]
         block: u32,
+        /// Write over OUTPUT if it exists (never over an input).
+        #[arg(long)]
+        replace: bool,
     },
     /// Run a WAV file through the link itself (the simulated channel), to make test material.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = exit::DISTORT)]
     Distort {
+        /// The link config (TOML) whose channels to apply.
         config: PathBuf,
+        /// Input WAV: the link's channel count and rate.
         input: PathBuf,
+        /// Output WAV: 32-bit float unless --keep-format. Never the input; an existing file
+        /// only with --replace.
         output: PathBuf,
         /// Write the input's own sample format (integer output is rounded and clamped).
         #[arg(long)]
         keep_format: bool,
+        /// Write over OUTPUT if it exists (never over an input).
+        #[arg(long)]
+        replace: bool,
     },
-    /// Error of TEST against REF in dB: 10·log10(Σ(test − ref delayed)² / Σ ref delayed²).
-    #[command(after_help = EXIT_CODES)]
+    /// Error of TEST against REF in dB: 10·log10(Σ(test - ref delayed)² / Σ ref delayed²).
+    #[command(after_help = exit::COMPARE)]
     Compare {
-        /// The reference (e.g. the original programme).
+        /// The reference WAV (e.g. the original programme).
         reference: PathBuf,
-        /// The signal to judge (e.g. the equalized output).
+        /// The WAV to judge (e.g. the equalized output): same channel count and rate.
         test: PathBuf,
-        /// Delay the reference by this many frames first (the link's bulk delay).
+        /// Delay the reference by this many frames first: the total delay `check` prints
+        /// (the link's bulk delay plus any latency the inverse adds).
         #[arg(long, default_value_t = 0)]
         delay: usize,
         /// Leave out this many frames at the start.
@@ -106,55 +105,66 @@ enum Command {
         skip: usize,
     },
     /// Generate programme material, pass it through the simulated link, equalize it, and print
-    /// the error before and after. Needs no sound card and no files.
-    #[command(after_help = EXIT_CODES)]
+    /// a summary of each path and the error before and after. Needs no sound card and no files.
+    #[command(after_help = exit::DEMO)]
     Demo {
         /// The link config (default: the built-in configs/echo_line.toml).
         config: Option<PathBuf>,
-        /// Length of the generated material in seconds.
-        #[arg(long, default_value_t = 5.0)]
+        /// Length of the generated material in seconds (0.1 to 600).
+        #[arg(long, default_value_t = 5.0, value_parser = number)]
         seconds: f64,
     },
     /// Run the live service: equalize the link continuously. SIGHUP re-reads the config (a bad
     /// one is logged and the running filters stay), SIGTERM/SIGINT fade out and stop.
-    #[command(after_help = EXIT_CODES)]
     Run {
+        /// The link config (TOML); its [audio] table names the devices.
         config: PathBuf,
         /// Drive the engine from a real-time simulated link instead of sound devices.
         #[arg(long)]
         simulate: bool,
-        /// With --simulate: the config describing what the link really does (default: CONFIG).
+        /// With --simulate: the config describing what the link really does (default: CONFIG);
+        /// it must have CONFIG's sample rate and channel count.
         #[arg(long, requires = "simulate", value_name = "FILE")]
         true_link: Option<PathBuf>,
         /// Stop by itself after this many seconds.
-        #[arg(long = "for", value_name = "SECONDS")]
+        #[arg(long = "for", value_name = "SECONDS", value_parser = number)]
         run_for: Option<f64>,
-        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock).
+        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock, else
+        /// /tmp/redress-UID/status.sock).
         #[arg(long)]
         socket: Option<PathBuf>,
-        /// More log lines (-v: debug).
-        #[arg(short, long, action = clap::ArgAction::Count, conflicts_with = "quiet")]
-        verbose: u8,
+        /// Debug lines too: each path's design in figures (order, structure, precision, peak
+        /// boost, decay, delays, pole radius after rounding) at start and after every reload.
+        #[arg(short, long, conflicts_with = "quiet")]
+        verbose: bool,
         /// Errors only.
         #[arg(short, long)]
         quiet: bool,
     },
     /// Ask a running service what it is doing.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = exit::STATUS)]
     Status {
         /// Print the status document as JSON.
         #[arg(long)]
         json: bool,
-        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock).
+        /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock, else
+        /// /tmp/redress-UID/status.sock, else the system service's /run/redress/status.sock).
         #[arg(long)]
         socket: Option<PathBuf>,
     },
-    /// List the audio devices and the configurations they support.
-    Devices,
+    /// List the audio devices and what each supports: the names to give as input_device and
+    /// output_device, their channel counts, rates and periods.
+    #[command(after_help = exit::DEVICES)]
+    Devices {
+        /// Also say why each unavailable device could not be opened, and let the audio
+        /// libraries' own messages through.
+        #[arg(short, long)]
+        verbose: bool,
+    },
     /// Time the configured filters in the real engine (callback time against the block's
     /// deadline) and report the delay each channel's design adds; with --round-trip, also
     /// measure the device path with its output looped back to its input.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = exit::BENCH)]
     Bench {
         /// The link to time (not needed with --fir-taps or --recursion-limits).
         #[arg(required_unless_present_any = ["fir_taps", "recursion_limits"])]
@@ -183,10 +193,10 @@ enum Command {
         recursion_limits: bool,
         /// Callbacks to time.
         #[arg(long, default_value_t = redress::bench::DEFAULT_BENCH_BLOCKS as u32,
-              value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+              value_parser = whole_in(1, 1_000_000))]
         blocks: u32,
         /// Frames per callback (default: the config's [audio] buffer_frames, else 256).
-        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=65_536))]
+        #[arg(long, value_parser = whole_in(1, 65_536))]
         block_frames: Option<u32>,
         /// Also play a test signal on the output device and find it on the input device (the
         /// output must be looped back to the input).
@@ -204,7 +214,17 @@ enum Command {
 }
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    // `run --help` carries the caution the service logs at start-up; it is the library's text.
+    let command = Cli::command().mut_subcommand("run", |run| {
+        run.after_help(format!("{CAUTION}\n\n{}", exit::RUN))
+    });
+    let cli = match Cli::from_arg_matches(&command.get_matches()) {
+        Ok(cli) => cli,
+        Err(e) => e.exit(),
+    };
+    if !matches!(cli.command, Command::Run { .. } | Command::Status { .. }) {
+        closed_pipe::end_quietly_on_closed_pipe();
+    }
     let code = match cli.command {
         Command::Check { config, json, plot } => check(&config, json, plot.as_deref()),
         Command::Apply {
@@ -213,7 +233,9 @@ fn main() -> ExitCode {
             output,
             keep_format,
             block,
-        } => apply(
+            replace,
+        } => file_run(
+            true,
             &config,
             &input,
             &output,
@@ -221,13 +243,16 @@ fn main() -> ExitCode {
                 block_frames: block as usize,
                 keep_format,
             },
+            existing(replace),
         ),
         Command::Distort {
             config,
             input,
             output,
             keep_format,
-        } => distort(
+            replace,
+        } => file_run(
+            false,
             &config,
             &input,
             &output,
@@ -235,6 +260,7 @@ fn main() -> ExitCode {
                 keep_format,
                 ..FileRunOptions::default()
             },
+            existing(replace),
         ),
         Command::Compare {
             reference,
@@ -257,10 +283,10 @@ fn main() -> ExitCode {
             true_link,
             run_for,
             socket,
-            if quiet { -1 } else { verbose as i8 },
+            if quiet { -1 } else { i8::from(verbose) },
         ),
         Command::Status { json, socket } => status(json, socket),
-        Command::Devices => devices(),
+        Command::Devices { verbose } => devices(verbose),
         Command::Bench {
             config,
             json,
@@ -292,22 +318,48 @@ fn main() -> ExitCode {
                 block_frames.map(|b| b as usize),
                 round_trip.then_some((input_device, output_device)),
             ),
-            (None, None) => exit::INVALID_CONFIG,
+            (None, None) => exit::INVALID,
         },
         Command::Measure(command) => measure_commands::run(command),
     };
     ExitCode::from(code)
 }
 
+/// What to do with an output that exists: `--replace` writes over it.
+pub(crate) fn existing(replace: bool) -> Existing {
+    if replace {
+        Existing::Replace
+    } else {
+        Existing::Keep
+    }
+}
+
 /// Reads the config, or says why not.
-fn load(config: &Path) -> Result<Link, u8> {
+pub(crate) fn load(config: &Path) -> Result<Link, u8> {
     load_link(config).map_err(|e| {
         eprintln!("error: {e}");
-        exit::INVALID_CONFIG
+        exit::INVALID
     })
 }
 
+/// Checks a command's outputs before anything is read or written; says why not.
+pub(crate) fn outputs_allowed(outputs: &[&Path], inputs: &[&Path], existing: Existing) -> bool {
+    match check_output_files(outputs, inputs, existing) {
+        Ok(()) => true,
+        Err(e) => {
+            eprintln!("error: {e}");
+            false
+        }
+    }
+}
+
 fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
+    if let Some(dir) = plot {
+        if let Err(e) = io::check_output_folder(dir, &[config]) {
+            eprintln!("error: {e}");
+            return exit::FAILED;
+        }
+    }
     let link = match load(config) {
         Ok(link) => link,
         Err(code) => return code,
@@ -333,23 +385,41 @@ fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
     }
 }
 
-fn apply(config: &Path, input: &Path, output: &Path, options: FileRunOptions) -> u8 {
-    let link = match load(config) {
-        Ok(link) => link,
-        Err(code) => return code,
-    };
-    let plan = plan_link(&link);
-    let result = io::apply_file(&plan, input, output, options, &mut print_progress);
-    finish_run("equalized", input, output, result)
+/// For a command that reads CONFIG and INPUT and writes OUTPUT: the output is checked first
+/// (never an input, an existing file only when asked), then the config is read.
+fn load_to_write(
+    config: &Path,
+    input: &Path,
+    output: &Path,
+    existing: Existing,
+) -> Result<Link, u8> {
+    if !outputs_allowed(&[output], &[config, input], existing) {
+        return Err(exit::FAILED);
+    }
+    load(config)
 }
 
-fn distort(config: &Path, input: &Path, output: &Path, options: FileRunOptions) -> u8 {
-    let link = match load(config) {
+/// `apply` (`equalize`: the link's inverse) or `distort` (the link itself), INPUT to OUTPUT.
+fn file_run(
+    equalize: bool,
+    config: &Path,
+    input: &Path,
+    output: &Path,
+    options: FileRunOptions,
+    existing: Existing,
+) -> u8 {
+    let link = match load_to_write(config, input, output, existing) {
         Ok(link) => link,
         Err(code) => return code,
     };
-    let result = io::distort_file(&link, input, output, options, &mut print_progress);
-    finish_run("distorted", input, output, result)
+    let progress = &mut print_progress;
+    if equalize {
+        let result = io::apply_file(&plan_link(&link), input, output, options, progress);
+        finish_run("equalized", input, output, result)
+    } else {
+        let result = io::distort_file(&link, input, output, options, progress);
+        finish_run("distorted", input, output, result)
+    }
 }
 
 fn print_progress(percent: u32) {
@@ -382,13 +452,14 @@ fn finish_run(
             );
             exit::OK
         }
-        Err(e @ io::OfflineError::NotRunnable { .. }) => {
-            eprintln!("error: {e}");
-            exit::NOT_RUNNABLE
-        }
         Err(e) => {
             eprintln!("error: {e}");
-            exit::FAILED
+            match e {
+                io::OfflineError::NotRunnable { .. } | io::OfflineError::Simulation(_) => {
+                    exit::NOT_RUNNABLE
+                }
+                _ => exit::FAILED,
+            }
         }
     }
 }
@@ -428,16 +499,20 @@ fn demo(config: Option<&Path>, seconds: f64) -> u8 {
     };
     if !(seconds.is_finite() && (0.1..=600.0).contains(&seconds)) {
         eprintln!("error: --seconds {seconds}: give a length from 0.1 to 600 seconds");
-        return exit::INVALID_CONFIG;
+        return exit::INVALID;
     }
-    let plan: LinkPlan = plan_link(&link);
+    let plan = plan_link(&link);
     let report = link_report(&plan, link.source.as_deref());
-    print!("{}", render_text(&report));
+    print!("{}", render_summary(&report));
     println!();
-    let spec = ProgrammeSpec::new(link.sample_rate, link.channel_count, seconds, 1);
+    let spec = io::ProgrammeSpec::new(link.sample_rate, link.channel_count, seconds, 1);
     match io::run_demo(&link, &plan, &spec) {
         Ok(outcome) => {
             print!("{}", outcome.describe());
+            println!(
+                "(the full analysis of every path: redress check {})",
+                config.map_or(DEMO_CONFIG_NAME.into(), |c| c.display().to_string())
+            );
             exit::OK
         }
         Err(e @ io::OfflineError::NotRunnable { .. }) => {
@@ -465,7 +540,7 @@ fn run(
         Some(s) if s.is_finite() && s > 0.0 => Some(std::time::Duration::from_secs_f64(s)),
         Some(s) => {
             eprintln!("error: --for {s}: give a positive number of seconds");
-            return exit::INVALID_CONFIG;
+            return exit::INVALID;
         }
     };
     let options = ServiceOptions {
@@ -485,7 +560,7 @@ fn run(
         Ok(()) => exit::OK,
         Err(e @ ServiceError::Config(_)) => {
             log::error!("{e}");
-            exit::INVALID_CONFIG
+            exit::INVALID
         }
         Err(e @ ServiceError::NotRunnable(_)) => {
             log::error!("{e}");
@@ -498,32 +573,40 @@ fn run(
     }
 }
 
-fn status(json: bool, socket: Option<PathBuf>) -> u8 {
-    let path = socket.unwrap_or_else(default_socket_path);
-    match query_status(&path) {
-        Ok(doc) => {
-            if json {
-                println!("{doc}");
-            } else {
-                print!("{}", render_status_text(&doc));
-            }
-            exit::OK
-        }
-        Err(e) => {
-            eprintln!("error: {e}");
-            exit::FAILED
-        }
-    }
+/// Prints `text` on standard output, or on standard error with `error: ` in front, without
+/// panicking when the pipe is closed. For the commands during which SIGPIPE may be ignored:
+/// `status` keeps it ignored (it talks to a socket that may close first), and the audio
+/// libraries `devices` and `bench --round-trip` load set it to ignored themselves (the JACK
+/// client does). A closed pipe then ends them quietly all the same.
+fn print_quietly(text: &str, error: bool) {
+    let _ = if error {
+        writeln!(std::io::stderr(), "error: {text}")
+    } else {
+        std::io::stdout().lock().write_all(text.as_bytes())
+    };
 }
 
-fn devices() -> u8 {
-    match io::live::list_devices() {
+fn status(json: bool, socket: Option<PathBuf>) -> u8 {
+    let path = socket.unwrap_or_else(locate_status_socket);
+    match query_status(&path) {
+        Ok(doc) if json => print_quietly(&format!("{doc}\n"), false),
+        Ok(doc) => print_quietly(&render_status_text(&doc), false),
+        Err(e) => {
+            print_quietly(&e.to_string(), true);
+            return exit::FAILED;
+        }
+    }
+    exit::OK
+}
+
+fn devices(verbose: bool) -> u8 {
+    match io::live::list_devices(verbose) {
         Ok(listing) => {
-            print!("{listing}");
+            print_quietly(&listing, false);
             exit::OK
         }
         Err(e) => {
-            eprintln!("error: {e}");
+            print_quietly(&e.to_string(), true);
             exit::FAILED
         }
     }
@@ -610,12 +693,10 @@ fn bench(
     match bench_link(&link, &plan, &options) {
         Ok(report) => {
             if json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&report).unwrap_or_default()
-                );
+                let text = serde_json::to_string_pretty(&report).unwrap_or_default();
+                print_quietly(&format!("{text}\n"), false);
             } else {
-                print!("{}", render_bench(&report));
+                print_quietly(&render_bench(&report), false);
             }
             let found = report.round_trip.as_ref().is_some_and(|r| r.found);
             if asked_round_trip && !found {
@@ -625,7 +706,7 @@ fn bench(
             }
         }
         Err(e) => {
-            eprintln!("error: {e}");
+            print_quietly(&e.to_string(), true);
             exit::NOT_RUNNABLE
         }
     }

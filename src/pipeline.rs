@@ -10,7 +10,9 @@ use crate::analysis::{analyse, AnalysisError, ChannelAnalysis};
 use crate::design::{design_inverse, DesignError, InverseDesign};
 use crate::model::{Link, Path, Structure, TransferFunction};
 use crate::numeric::poly::trim_trailing_zeros;
-use crate::realize::{realize, Realization, RealizeError, PARTITIONED_MIN_TAPS};
+use crate::realize::{
+    dense_direct_form_taps, realize, Realization, RealizeError, PARTITIONED_MIN_TAPS,
+};
 
 /// Smallest distance 1 − max |pole| a rounded realization must keep before it is trusted to run.
 /// Closer than this, round-off in the recursion itself can sustain oscillation (common practice:
@@ -21,6 +23,8 @@ pub const POLE_MARGIN_FLOOR: f64 = 1e-6;
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StructureSwitch {
     pub requested: Structure,
+    /// True when the config named the requested structure, false when it was the default.
+    pub configured: bool,
     pub used: Structure,
     /// Why the requested structure was not used.
     pub reason: String,
@@ -167,6 +171,7 @@ fn first_that_runs(
                 });
                 let switched = (*structure != path.structure).then(|| StructureSwitch {
                     requested: path.structure,
+                    configured: path.inverse.structure_configured,
                     used: *structure,
                     reason: reason.unwrap_or_default(),
                 });
@@ -250,7 +255,7 @@ fn realize_safely(inverse: &TransferFunction, path: &Path) -> Choice {
 }
 
 /// Why a sparse recursion would run `inverse` cheaper, when it would: it touches at most a
-/// quarter of the coefficients the dense direct form touches a sample (2·order + 1), and the
+/// quarter of the coefficients the direct form touches a sample (every bₖ, every aₖ past a₀), and the
 /// order is at least 4. The dense structures cost about two multiply-adds per order a sample;
 /// the sparse one one per non-zero tap, plus a call's overhead per run of samples shorter than
 /// the shortest recursive delay (`redress bench` on configs/echo_line.toml).
@@ -264,12 +269,17 @@ pub fn sparse_pays(inverse: &TransferFunction) -> Option<String> {
     let order = b.len().max(a.len()).saturating_sub(1);
     let touched =
         b.iter().filter(|c| **c != 0.0).count() + a.iter().skip(1).filter(|c| **c != 0.0).count();
-    let dense = 2 * order + 1;
+    let dense = dense_direct_form_taps(b, a);
+    let same = if a.len() > 1 {
+        "with the same poles"
+    } else {
+        "with the same response (an FIR: no poles)"
+    };
     (order >= 4 && 4 * touched <= dense).then(|| {
         format!(
             "the inverse's difference equation has {touched} non-zero taps at order {order}: \
              a sparse recursion touches only those, {touched} multiply-adds a sample against \
-             {dense} for the dense direct form, with the same poles"
+             {dense} for the direct form, {same}"
         )
     })
 }

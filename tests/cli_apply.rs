@@ -196,7 +196,7 @@ fn compare_of_a_file_with_itself_is_exact() {
     let run = redress_paths(&[&"compare", &file, &file]);
     assert_eq!(code(&run), 0, "{}", stderr(&run));
     assert!(
-        stdout(&run).contains("−∞ dB (identical)"),
+        stdout(&run).contains("-∞ dB (identical)"),
         "{}",
         stdout(&run)
     );

@@ -49,6 +49,13 @@ struct Files {
     broken: PathBuf,
     plain_file: PathBuf,
     small: PathBuf,
+    /// A hand-written config an output must not replace.
+    hand_written: PathBuf,
+    fractional_rate: PathBuf,
+    newer_format: PathBuf,
+    mono_16k: PathBuf,
+    unknown_device: PathBuf,
+    typographic_minus: PathBuf,
 }
 
 fn files() -> Files {
@@ -96,7 +103,50 @@ fn files() -> Files {
         "[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n[[path]]\nchannels = [0, 1]\n\
          difference_equation = { b = [1.0, -0.5], a = [1.0] }\n",
     );
+    let hand_written = write_file(
+        &d,
+        "mine.toml",
+        "# my own notes on the east rack\n[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n\
+         [[path]]\nchannels = [0, 1]\ndifference_equation = { b = [1.0], a = [1.0] }\n",
+    );
+    let fractional_rate = write_file(
+        &d,
+        "fractional.toml",
+        "[link]\nsample_rate_hz = 44100.5\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+         difference_equation = { b = [1.0, 0.5], a = [1.0] }\n",
+    );
+    let newer_format = write_file(
+        &d,
+        "newer.toml",
+        "[link]\nformat_version = 7\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\n\
+         channels = [0]\ndifference_equation = { b = [1.0, 0.5], a = [1.0] }\n",
+    );
+    let mono_16k = write_file(
+        &d,
+        "mono_16k.toml",
+        "[link]\nsample_rate_hz = 16000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+         difference_equation = { b = [1.0, -0.5], a = [1.0] }\n",
+    );
+    let unknown_device = write_file(
+        &d,
+        "rack_amp.toml",
+        "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+         difference_equation = { b = [1.0, -0.5], a = [1.0] }\n\n[audio]\n\
+         input_device = \"no such rack amp anywhere\"\n",
+    );
+    let typographic_minus = write_file(
+        &d,
+        "pasted.toml",
+        "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+         difference_equation = { b = [1.0, \u{2212}0.5], a = [1.0] }\n",
+    );
     Files {
+        typographic_minus,
+        hand_written,
+        fractional_rate,
+        newer_format,
+        mono_16k,
+        unknown_device,
         small,
         _dir: dir,
         dir: d,
@@ -283,6 +333,18 @@ fn catalogue(f: &Files) -> Vec<Case> {
             &["not a socket is in the way"],
         ),
         case(
+            "run with a socket where no folder can be made",
+            &[
+                "run",
+                &echo,
+                "--simulate",
+                "--socket",
+                "/proc/no-such-redress-folder/s.sock",
+            ],
+            1,
+            &["cannot create /proc/no-such-redress-folder"],
+        ),
+        case(
             "run with a socket under a file",
             &[
                 "run",
@@ -339,7 +401,12 @@ fn catalogue(f: &Files) -> Vec<Case> {
             "apply into a missing folder",
             &["apply", &echo, &good, &p(&f.dir.join("nowhere/out.wav"))],
             1,
-            &["nowhere/out.wav", "help:"],
+            &[
+                "nowhere/out.wav",
+                "the folder",
+                "does not exist",
+                "mkdir -p",
+            ],
         ),
         case(
             "compare with a missing file",
@@ -357,10 +424,219 @@ fn catalogue(f: &Files) -> Vec<Case> {
             "compare files of different channel counts",
             &["compare", &good, &p(&f.mono_wav)],
             1,
-            &["channel"],
+            &[
+                "1 channel, but the reference",
+                "has 2 channels",
+                "same channel count",
+            ],
+        ),
+        // Outputs never replace an input, nor an existing file unless asked (issue 16).
+        case(
+            "identify onto its own stimulus",
+            &["identify", &good, &good, &good],
+            1,
+            &["the input file itself", "help:"],
+        ),
+        case(
+            "identify onto a hand-written config",
+            &["identify", &good, &good, &p(&f.hand_written)],
+            1,
+            &["mine.toml", "already exists", "--replace"],
+        ),
+        case(
+            "identify with its report over a file",
+            &[
+                "identify",
+                &good,
+                &good,
+                &p(&f.dir.join("fit.toml")),
+                "--report",
+                &p(&f.hand_written),
+            ],
+            1,
+            &["a file is in the way of this folder"],
+        ),
+        case(
+            "simulate a recording onto its stimulus",
+            &["simulate-recording", &echo, &good, &good, "--replace"],
+            1,
+            &["the input file itself"],
+        ),
+        case(
+            "apply over an existing file",
+            &["apply", &echo, &good, &p(&f.mono_wav)],
+            1,
+            &["mono.wav", "already exists", "--replace"],
+        ),
+        case(
+            "apply over its own config, even when asked to replace",
+            &["apply", &echo, &good, &echo, "--replace"],
+            1,
+            &["the input file itself"],
+        ),
+        case(
+            "distort over an existing file",
+            &["distort", &echo, &good, &p(&f.hand_written)],
+            1,
+            &["already exists"],
+        ),
+        case(
+            "stimulus and its inverse filter in one file",
+            &[
+                "stimulus",
+                &p(&f.dir.join("sweep.wav")),
+                "--inverse-filter",
+                &p(&f.dir.join("sweep.wav")),
+            ],
+            1,
+            &["named for two outputs"],
+        ),
+        case(
+            "stimulus over an existing file",
+            &["stimulus", &good],
+            1,
+            &["already exists"],
+        ),
+        case(
+            "plot into a file",
+            &["plot", &echo, &p(&f.hand_written)],
+            1,
+            &["a file is in the way of this folder"],
+        ),
+        case(
+            "check --plot into a file",
+            &["check", &echo, "--plot", &p(&f.hand_written)],
+            1,
+            &["a file is in the way of this folder"],
+        ),
+        // Options that do nothing for the chosen stimulus are refused.
+        case(
+            "sweep length for a sequence",
+            &[
+                "stimulus",
+                &p(&f.dir.join("s1.wav")),
+                "--kind",
+                "mls",
+                "--seconds",
+                "5",
+            ],
+            2,
+            &[
+                "--seconds does nothing for a maximum-length sequence",
+                "--kind sweep",
+            ],
+        ),
+        case(
+            "sequence order for a sweep",
+            &[
+                "stimulus",
+                &p(&f.dir.join("s2.wav")),
+                "--kind",
+                "sweep",
+                "--order",
+                "12",
+            ],
+            2,
+            &["--order does nothing for a sweep", "--kind mls"],
+        ),
+        case(
+            "inverse filter for a sequence",
+            &[
+                "stimulus",
+                &p(&f.dir.join("s3.wav")),
+                "--kind",
+                "mls",
+                "--inverse-filter",
+                &p(&f.dir.join("s3-inverse.wav")),
+            ],
+            2,
+            &["--inverse-filter does nothing"],
+        ),
+        // Configs.
+        case(
+            "fractional sample rate",
+            &["check", &p(&f.fractional_rate)],
+            2,
+            &["44100.5", "not a whole number", "44100 or 44101"],
+        ),
+        case(
+            "apply with a fractional sample rate",
+            &["apply", &p(&f.fractional_rate), &good, &out],
+            2,
+            &["not a whole number"],
+        ),
+        case(
+            "typographic minus in a config",
+            &["check", &p(&f.typographic_minus)],
+            2,
+            &["pasted.toml:7:", "U+2212", "write the minus as `-`"],
+        ),
+        case(
+            "config from a newer format",
+            &["check", &p(&f.newer_format)],
+            2,
+            &["format 7", "newer than this redress", "format 1", "help:"],
+        ),
+        case(
+            "true link at another rate and channel count",
+            &[
+                "run",
+                &p(&f.mono_16k),
+                "--simulate",
+                "--true-link",
+                &echo,
+                "--socket",
+                &p(&f.dir.join("r4/s.sock")),
+            ],
+            1,
+            &[
+                "short_line.toml",
+                "sample rate 48000 Hz",
+                "16000 Hz",
+                "help:",
+            ],
+        ),
+        case(
+            "distort through an unstable channel",
+            &["distort", &p(&f.unstable), &p(&f.mono_wav), &out],
+            3,
+            &[
+                "the channel itself is unstable",
+                "re-check the channel's poles",
+            ],
+        ),
+        case(
+            "simulate a recording through an unstable channel",
+            &["simulate-recording", &p(&f.unstable), &p(&f.mono_wav), &out],
+            3,
+            &["the channel itself is unstable"],
+        ),
+        case(
+            "a device no one has",
+            &[
+                "run",
+                &p(&f.unknown_device),
+                "--socket",
+                &p(&f.dir.join("r5/s.sock")),
+            ],
+            1,
+            &["no capture device matches", "redress devices"],
         ),
     ]
 }
+
+/// Standard error without the lines the audio libraries print by themselves when a device is
+/// looked up (ALSA's plugins, the JACK client): ours start with our own words.
+fn our_lines(err: &str) -> impl Iterator<Item = &str> {
+    err.lines().filter(|l| {
+        !["ALSA lib", "Jack", "jack", "Cannot connect"]
+            .iter()
+            .any(|library| l.starts_with(library))
+    })
+}
+
+/// What no message may contain: the program's internals and the raw numbers of OS errors.
+const NEVER_IN_A_MESSAGE: [&str; 5] = ["os error", "..=", "::", "src/", "\u{2212}"];
 
 // Source: the README's exit-code table and error conventions (file, what is wrong, help line).
 #[test]
@@ -390,6 +666,13 @@ fn every_bad_command_line_fails_as_catalogued() {
         if err.contains("panicked") {
             why.push("panicked".to_string());
         }
+        for internal in NEVER_IN_A_MESSAGE {
+            // The typographic-minus case quotes the user's own line, minus and all.
+            let quotes_it = internal == "\u{2212}" && c.name.contains("typographic");
+            if !quotes_it && our_lines(&err).any(|l| l.contains(internal)) {
+                why.push(format!("stderr shows {internal:?}"));
+            }
+        }
         if !why.is_empty() {
             wrong.push(format!(
                 "{}: {}\n  args {:?}\n  stderr: {err}\n  stdout: {}",
@@ -411,6 +694,56 @@ fn every_bad_command_line_fails_as_catalogued() {
         !f.dir.join("out.wav").exists(),
         "no output from a refused run"
     );
+    for (name, file) in [("mine.toml", &f.hand_written), ("mono.wav", &f.mono_wav)] {
+        let text = std::fs::read(file).unwrap();
+        assert!(
+            !text.is_empty() && (name != "mine.toml" || text.starts_with(b"# my own notes")),
+            "{name} was replaced"
+        );
+    }
+    for never in [
+        "sweep.wav",
+        "s1.wav",
+        "s2.wav",
+        "s3.wav",
+        "s3-inverse.wav",
+        "fit.toml",
+    ] {
+        assert!(
+            !f.dir.join(never).exists(),
+            "{never} written by a refused run"
+        );
+    }
+}
+
+// Source: common practice (Unix tools) — asked to replace, a command writes over its own
+// earlier output, and only then.
+#[test]
+fn replace_writes_over_an_earlier_output() {
+    let f = files();
+    let out = f.dir.join("again.wav");
+    let first = Command::new(env!("CARGO_BIN_EXE_redress"))
+        .args(["stimulus", "--seconds", "0.2"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert_eq!(code(&first), 0, "{}", stderr(&first));
+    let refused = Command::new(env!("CARGO_BIN_EXE_redress"))
+        .args(["stimulus", "--seconds", "0.3"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert_eq!(code(&refused), 1);
+    let frames_of = |p: &Path| redress::io::read_wav(p).unwrap().0.len();
+    // 0.2 s of sweep + 0.5 s of silence at 48 kHz (the defaults).
+    assert_eq!(frames_of(&out), 33_600);
+    let replaced = Command::new(env!("CARGO_BIN_EXE_redress"))
+        .args(["stimulus", "--seconds", "0.3", "--replace"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert_eq!(code(&replaced), 0, "{}", stderr(&replaced));
+    assert_eq!(frames_of(&out), 38_400);
 }
 
 #[test]

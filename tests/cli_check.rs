@@ -36,7 +36,7 @@ fn every_example_config_reports_in_text_and_json_and_they_agree() {
             stderr(&text_run)
         );
         assert_eq!(json["schema"], "redress-link-report");
-        assert_eq!(json["schema_version"], 1);
+        assert_eq!(json["schema_version"], 2);
         assert_eq!(json["runnable"], Value::Bool(json_code == 0), "{name}");
         assert!(!paths(&json).is_empty(), "{name}: no paths");
         for path in paths(&json) {
@@ -119,7 +119,8 @@ fn echo_line_is_invertible_with_no_bulk_delay() {
 
 // Source: the config's own taps (configs/echo_line.toml) — the exact inverse of
 // g₀ + Σ gₖz^−Dₖ is 1/(g₀ + Σ gₖz^−Dₖ): one numerator tap and one recursive tap per echo, at
-// order max Dₖ, where a dense direct form touches 2·order + 1 coefficients a sample.
+// order max Dₖ, where a direct form touches b₀ and every aₖ past a₀: order + 1 coefficients a
+// sample.
 #[test]
 fn echo_line_runs_as_sparse_recursions_and_says_what_they_touch() {
     let (exit, json) = check_json("configs/echo_line.toml");
@@ -129,19 +130,19 @@ fn echo_line_runs_as_sparse_recursions_and_says_what_they_touch() {
         assert_eq!(r["structure"], "sparse_recursion");
         assert_eq!(r["sparse"]["taps_touched"], taps);
         assert_eq!(r["sparse"]["order"], order);
-        assert_eq!(r["sparse"]["dense_taps"], 2 * order + 1);
+        assert_eq!(r["sparse"]["dense_taps"], order + 1);
         assert_eq!(r["pole_check"], "dominant_leading_tap");
         assert!(r["max_pole_radius"].as_f64().unwrap() < 1.0);
     }
     let text = squeeze(&stdout(&redress(&["check", "configs/echo_line.toml"])));
     assert!(
-        text.contains("realization sparse recursion, f32 coefficients"),
+        text.contains("realization sparse recursion (`sparse_recursion`), f32 coefficients"),
         "{text}"
     );
-    assert!(text.contains("touches 3 of the 241 coefficients"), "{text}");
-    assert!(text.contains("touches 4 of the 395 coefficients"), "{text}");
+    assert!(text.contains("touches 3 of the 121 coefficients"), "{text}");
+    assert!(text.contains("touches 4 of the 198 coefficients"), "{text}");
     assert!(
-        text.contains("runs as y[n] = 1.08696 x[n] − 0.304348 y[n−37]"),
+        text.contains("runs as y[n] = 1.08696 x[n] - 0.304348 y[n-37]"),
         "{text}"
     );
 }
@@ -167,7 +168,7 @@ fn paging_delay_leaves_six_samples_and_inverts_the_rest() {
     // G = (1 − 0.15 z⁻¹)/(0.7 + 0.25 z⁻¹ + 0.05 z⁻²), normalised to a₀ = 1.
     assert_eq!(
         inverse["difference_equation"],
-        "y[n] = 1.42857 x[n] − 0.214286 x[n−1] − 0.357143 y[n−1] − 0.0714286 y[n−2]"
+        "y[n] = 1.42857 x[n] - 0.214286 x[n-1] - 0.357143 y[n-1] - 0.0714286 y[n-2]"
     );
     let text = squeeze(&stdout(&redress(&["check", "configs/paging_delay.toml"])));
     assert!(text.contains("bulk delay 6 samples (0.375 ms)"), "{text}");

@@ -173,6 +173,9 @@ fn a_mono_stimulus_into_a_stereo_link_gives_one_path_per_channel() {
     let link = load_link(&fitted).unwrap();
     assert_eq!(link.channel_count, 2);
     assert_eq!(link.paths.len(), 2);
+    // The fitted config says which config format it is written in (README, Config format).
+    let text = std::fs::read_to_string(&fitted).unwrap();
+    assert!(text.contains("[link]\nformat_version = 1\n"), "{text}");
     assert!(ok(&[&"check", &fitted]).contains("every path has a stable inverse"));
 }
 
@@ -277,7 +280,7 @@ fn stimulus_settings_are_checked_and_the_default_level_is_the_safe_one() {
     let dir = tempfile::tempdir().unwrap();
     let file = dir.path().join("s.wav");
     let out = ok(&[&"stimulus", &file, &"--seconds", &"0.5"]);
-    assert!(out.contains("peak −20 dBFS"), "{out}");
+    assert!(out.contains("peak -20 dBFS"), "{out}");
     let (samples, format) = read_wav(&file).unwrap();
     assert_eq!(format.sample_rate, 48_000);
     let peak = samples.iter().fold(0.0f32, |m, v| m.max(v.abs()));
@@ -298,6 +301,7 @@ fn stimulus_settings_are_checked_and_the_default_level_is_the_safe_one() {
         assert!(err.contains(why), "{args:?}: {err}");
     }
     let inverse = dir.path().join("inverse.wav");
+    // s.wav is there from the first run: writing it again takes --replace.
     let out = ok(&[
         &"stimulus",
         &file,
@@ -305,6 +309,7 @@ fn stimulus_settings_are_checked_and_the_default_level_is_the_safe_one() {
         &"0.5",
         &"--inverse-filter",
         &inverse,
+        &"--replace",
     ]);
     assert!(out.contains("inverse filter"), "{out}");
     assert_eq!(read_wav(&inverse).unwrap().0.len(), 24_000);

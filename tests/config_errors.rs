@@ -69,7 +69,7 @@ const CATALOGUE: &[Case] = &[
     case("bad_precision", BadChoice, 5, Some("link.precision"), "\"f32\", \"f64\""),
     // Channels.
     case("channel_out_of_range", OutOfRange, 7, Some("path[0].channels[1]"), "channel 2 does not exist"),
-    case("channel_in_two_paths", ChannelTwice, 13, Some("path[1].channels[0]"), "already modelled by path[0]"),
+    case("channel_in_two_paths", ChannelTwice, 13, Some("path[1].channels[0]"), "already modelled by path 1"),
     case("channel_twice_in_path", ChannelTwice, 7, Some("path[0].channels[1]"), "listed twice"),
     case("channel_not_covered", ChannelNotCovered, 4, Some("link.channel_count"), "channel 1 is not modelled"),
     case("empty_channels", EmptyList, 7, Some("path[0].channels"), "no channel"),

@@ -214,7 +214,7 @@ fn duplex_on_file_devices_plays_the_offline_result() {
     );
 
     // The device listing shows the test devices with what they support.
-    let listing = list_devices().expect("listing");
+    let listing = list_devices(false).expect("listing");
     assert!(listing.contains("alsa:eq_in"), "{listing}");
     assert!(listing.contains("alsa:eq_out"), "{listing}");
     assert!(listing.contains("f32"), "{listing}");

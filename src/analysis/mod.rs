@@ -183,7 +183,7 @@ fn reconcile(what: &str, roots: &mut [PlacedRoot], steps: &StepDown, notes: &mut
         (false, true) => {
             let largest = roots.iter().map(|r| r.root.radius()).fold(0.0, f64::max);
             notes.push(format!(
-                "{what}: the step-down test passes (smallest 1 − |k| = {:.3e}) but a root lies at \
+                "{what}: the step-down test passes (smallest 1 - |k| = {:.3e}) but a root lies at \
                  radius {largest:.12}, within the circle tolerance or beyond; the root reading stands",
                 steps.margin()
             ));

@@ -12,8 +12,12 @@ pub struct ChannelLatency {
     pub path: String,
     /// `exact`, `minimum_phase` or `least_squares_fir` (null when the path has no design).
     pub method: Option<String>,
+    /// The same in plain words ("exact inverse", …), as `check` names it.
+    pub method_name: Option<String>,
     /// Structure the channel runs (`direct_form_2t`, `sections`, `lattice_ladder`).
     pub structure: Option<String>,
+    /// The same in plain words ("second-order sections", …).
+    pub structure_name: Option<String>,
     pub order: Option<usize>,
     /// Delay the inverse adds (InverseDesign::added_latency_samples).
     pub algorithmic_latency_samples: Option<usize>,
@@ -35,7 +39,9 @@ pub fn channel_latencies(plan: &LinkPlan) -> Vec<ChannelLatency> {
                 channel,
                 path: path.map_or_else(String::new, |p| p.path.label.clone()),
                 method: design.map(|d| method_key(d.method)),
+                method_name: design.map(|d| d.method.name().to_string()),
                 structure: realization.map(|r| structure_key(r.structure)),
+                structure_name: realization.map(|r| r.structure.name().to_string()),
                 order: realization.map(|r| r.filter.order()),
                 algorithmic_latency_samples: design.map(|d| d.added_latency_samples),
                 algorithmic_latency_ms: design

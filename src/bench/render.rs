@@ -73,8 +73,9 @@ pub fn render_text(r: &BenchReport) -> String {
         "\nalgorithmic latency (delay the inverse adds on purpose)"
     );
     for ch in &r.channels {
-        let what = match (&ch.method, &ch.structure, ch.order) {
-            (Some(m), Some(st), Some(o)) => format!("{m}, {st}, order {o}"),
+        // Names in the text, as `check` prints them; the keys are in the JSON.
+        let what = match (&ch.method_name, &ch.structure_name, ch.order) {
+            (Some(m), Some(st), Some(o)) => format!("{m} in {st}, order {o}"),
             _ => "not runnable".to_string(),
         };
         let latency = match (ch.algorithmic_latency_samples, ch.algorithmic_latency_ms) {

@@ -28,7 +28,11 @@ impl std::fmt::Display for ServiceError {
         match self {
             ServiceError::Config(e) => write!(f, "{e}"),
             ServiceError::NotRunnable(e) => write!(f, "{e}"),
-            ServiceError::Signals(e) => write!(f, "cannot install signal handlers: {e}"),
+            ServiceError::Signals(e) => write!(
+                f,
+                "cannot install signal handlers: {}",
+                crate::os_error::plain_os_error(e)
+            ),
             ServiceError::Socket { path, why } => {
                 write!(f, "status socket {}: {why}", path.display())
             }

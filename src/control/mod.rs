@@ -2,17 +2,21 @@
 //! SIGTERM/SIGINT, a status socket, and plain log lines. Everything slow happens here, never on
 //! the audio thread.
 
+mod caution;
 mod device_watch;
 mod error;
 mod logging;
+mod plan_details;
 mod running;
 mod service;
 mod signals;
 mod socket_path;
+mod socket_search;
 mod status;
 mod status_client;
 mod status_server;
 
+pub use caution::{start_up_caution, CAUTION};
 pub use device_watch::{Backoff, DeviceWatch, Health, RecoveryPacer, STABLE_RUN};
 pub use error::ServiceError;
 pub use logging::init_logging;
@@ -20,6 +24,7 @@ pub use running::{AudioSource, RunningAudio, DEFAULT_SIMULATED_BLOCK};
 pub use service::{run_service, ServiceOptions, SourceChoice};
 pub use signals::SignalFlags;
 pub use socket_path::{current_uid, default_socket_path};
+pub use socket_search::{locate_status_socket, status_socket_candidates, SYSTEM_SOCKET};
 pub use status::{render_status_text, ServiceStatus};
 pub use status_client::{query_status, StatusQueryError};
 pub use status_server::{StatusServer, CLIENT_TIMEOUT, MAX_CLIENTS, MAX_REQUEST_BYTES};

@@ -19,6 +19,7 @@ use super::status::{path_summaries, AudioStatus, ReloadStatus, ServiceStatus};
 use super::status_server::{SharedDocument, StatusServer};
 use super::ServiceError;
 use crate::engine::{EngineEvent, Equalizer, StatsSnapshot};
+use crate::io::paced_link::check_true_link;
 use crate::model::config::load_link;
 use crate::model::Link;
 use crate::pipeline::{plan_link, LinkPlan};
@@ -122,6 +123,7 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
                 Some(p) => load_link(p).map_err(|e| ServiceError::Config(Box::new(e)))?,
                 None => link.clone(),
             };
+            check_true_link(&truth, &link).map_err(ServiceError::Simulation)?;
             AudioSource::Simulated {
                 truth: Box::new(truth),
                 seed: *seed,
@@ -146,6 +148,10 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         }
     };
     let server = StatusServer::start(&socket, Arc::clone(&document))?;
+    if matches!(source, AudioSource::Devices) {
+        // Once, before the first sound; device recoveries and restarts do not repeat it.
+        warn!("{}", super::caution::start_up_caution(&plan));
+    }
     let audio = RunningAudio::start(&link, &plan, 1, &source)?;
     let mut service = Service {
         options,
@@ -181,12 +187,14 @@ pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
         service.audio_description(),
         server.path().display()
     );
+
     for p in path_summaries(&service.plan) {
         info!(
             "path `{}`: {} in {}; gives up: {}",
-            p.label, p.method, p.structure, p.gives_up
+            p.label, p.method_name, p.structure_name, p.gives_up
         );
     }
+    super::plan_details::log_plan_details(&service.plan);
     service.publish();
     let mut last_status = Instant::now();
     loop {
@@ -285,6 +293,11 @@ impl Service {
             Ok(designed) => designed,
             Err(why) => return self.reject(why),
         };
+        if let AudioSource::Simulated { truth, .. } = &self.source {
+            if let Err(e) = check_true_link(truth, &link) {
+                return self.reject(e.to_string());
+            }
+        }
         let generation = self.generation + 1;
         let restart = self.audio.as_ref().and_then(|a| a.restart_reason(&link));
         if let Some(reason) = restart {
@@ -343,9 +356,10 @@ impl Service {
         for p in path_summaries(&self.plan) {
             info!(
                 "path `{}`: {} in {}; gives up: {}",
-                p.label, p.method, p.structure, p.gives_up
+                p.label, p.method_name, p.structure_name, p.gives_up
             );
         }
+        super::plan_details::log_plan_details(&self.plan);
         self.publish();
     }
 
@@ -547,6 +561,8 @@ impl Service {
         audio_status.last_loss = self.last_loss.clone();
         audio_status.last_retry_error = self.last_retry_error.clone();
         let status = ServiceStatus {
+            schema: "redress-service-status",
+            schema_version: super::status::STATUS_SCHEMA_VERSION,
             version: env!("CARGO_PKG_VERSION"),
             pid: std::process::id(),
             config_path: display(&self.options.config),

@@ -12,6 +12,8 @@ use std::fs::{self, File, OpenOptions};
 use std::os::unix::fs::{DirBuilderExt, MetadataExt, OpenOptionsExt, PermissionsExt};
 use std::path::{Path, PathBuf};
 
+use crate::os_error::plain_os_error;
+
 /// The socket's file name in its folder.
 const SOCKET_NAME: &str = "status.sock";
 
@@ -80,8 +82,13 @@ pub fn prepare_default_socket() -> Result<(PathBuf, Option<String>), String> {
                 return Err(format!("{why}; and no home directory to fall back to"));
             };
             if let Some(parent) = fallback.parent() {
-                fs::create_dir_all(parent)
-                    .map_err(|e| format!("{why}; and cannot create {}: {e}", parent.display()))?;
+                fs::create_dir_all(parent).map_err(|e| {
+                    format!(
+                        "{why}; and cannot create {}: {}",
+                        parent.display(),
+                        plain_os_error(&e)
+                    )
+                })?;
             }
             make_private_dir(&fallback).map_err(|e| format!("{why}; and {e}"))?;
             Ok((fallback.join(SOCKET_NAME), Some(why)))
@@ -95,7 +102,13 @@ fn make_private_dir(dir: &Path) -> Result<(), String> {
     match fs::DirBuilder::new().mode(0o700).create(dir) {
         Ok(()) => {}
         Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {}
-        Err(e) => return Err(format!("cannot create {}: {e}", dir.display())),
+        Err(e) => {
+            return Err(format!(
+                "cannot create {}: {}",
+                dir.display(),
+                plain_os_error(&e)
+            ))
+        }
     }
     check_private_dir(dir)
 }
@@ -115,12 +128,12 @@ fn check_private_dir(dir: &Path) -> Result<(), String> {
                     dir.display()
                 )
             } else {
-                format!("cannot open {}: {e}", dir.display())
+                format!("cannot open {}: {}", dir.display(), plain_os_error(&e))
             }
         })?;
     let meta = handle
         .metadata()
-        .map_err(|e| format!("cannot inspect {}: {e}", dir.display()))?;
+        .map_err(|e| format!("cannot inspect {}: {}", dir.display(), plain_os_error(&e)))?;
     owned_by_us(dir, &meta)?;
     let mode = meta.permissions().mode() & 0o7777;
     if mode & 0o077 != 0 {
@@ -152,12 +165,14 @@ pub fn prepare_private_dir(socket: &Path) -> Result<(), String> {
     };
     if fs::symlink_metadata(dir).is_err() {
         if let Some(parent) = dir.parent().filter(|p| !p.as_os_str().is_empty()) {
-            fs::create_dir_all(parent)
-                .map_err(|e| format!("cannot create {}: {e}", parent.display()))?;
+            fs::create_dir_all(parent).map_err(|e| {
+                format!("cannot create {}: {}", parent.display(), plain_os_error(&e))
+            })?;
         }
         return make_private_dir(dir);
     }
-    let meta = fs::metadata(dir).map_err(|e| format!("cannot inspect {}: {e}", dir.display()))?;
+    let meta = fs::metadata(dir)
+        .map_err(|e| format!("cannot inspect {}: {}", dir.display(), plain_os_error(&e)))?;
     if !meta.is_dir() {
         return Err(format!("{} is not a directory", dir.display()));
     }
@@ -199,14 +214,19 @@ pub fn lock_socket(socket: &Path) -> Result<File, LockRefused> {
         .custom_flags(libc::O_NOFOLLOW | libc::O_CLOEXEC)
         .open(&lock)
         .map_err(|e| {
-            LockRefused::Failed(format!("cannot open the lock {}: {e}", lock.display()))
+            LockRefused::Failed(format!(
+                "cannot open the lock {}: {}",
+                lock.display(),
+                plain_os_error(&e)
+            ))
         })?;
     match file.try_lock() {
         Ok(()) => Ok(file),
         Err(std::fs::TryLockError::WouldBlock) => Err(LockRefused::Held),
         Err(std::fs::TryLockError::Error(e)) => Err(LockRefused::Failed(format!(
-            "cannot lock {}: {e}",
-            lock.display()
+            "cannot lock {}: {}",
+            lock.display(),
+            plain_os_error(&e)
         ))),
     }
 }

@@ -8,8 +8,18 @@ use crate::pipeline::LinkPlan;
 
 /// Everything `redress status` shows. Rendered to JSON by the control thread; the socket only
 /// hands the rendered text out.
+/// Bumped when a field is renamed, removed or changes meaning. Version 2 (the first with
+/// `schema_version`; the unversioned document before it counts as 1): a path's `method` and
+/// `structure` are keys, as in `check --json` and `bench --json`, with the plain words in
+/// `method_name` and `structure_name` (version 1 had the plain words in `method` and
+/// `structure`).
+pub const STATUS_SCHEMA_VERSION: u32 = 2;
+
 #[derive(Debug, Clone, Serialize)]
 pub struct ServiceStatus {
+    /// Always "redress-service-status".
+    pub schema: &'static str,
+    pub schema_version: u32,
     pub version: &'static str,
     pub pid: u32,
     pub config_path: String,
@@ -58,8 +68,12 @@ pub struct ReloadStatus {
 pub struct PathStatus {
     pub label: String,
     pub channels: Vec<usize>,
+    /// "exact", "minimum_phase" or "least_squares_fir", and the same in plain words.
     pub method: String,
+    pub method_name: String,
+    /// "direct_form_2t", "sections" or "lattice_ladder", and the same in plain words.
     pub structure: String,
+    pub structure_name: String,
     pub peak_boost_db: f64,
     pub added_latency_samples: usize,
     pub residual_delay_samples: usize,
@@ -83,8 +97,10 @@ pub fn path_summaries(plan: &LinkPlan) -> Vec<PathStatus> {
             Some(PathStatus {
                 label: p.path.label.clone(),
                 channels: p.path.channels.clone(),
-                method: design.method.name().to_string(),
-                structure: realization.structure.name().to_string(),
+                method: key(design.method),
+                method_name: design.method.name().to_string(),
+                structure: key(realization.structure),
+                structure_name: realization.structure.name().to_string(),
                 peak_boost_db: design.peak_boost_db,
                 added_latency_samples: design.added_latency_samples,
                 residual_delay_samples: design.residual_delay_samples,
@@ -92,6 +108,14 @@ pub fn path_summaries(plan: &LinkPlan) -> Vec<PathStatus> {
             })
         })
         .collect()
+}
+
+/// The JSON key of a choice: its serde spelling, the one `check --json` uses too.
+fn key<T: Serialize>(choice: T) -> String {
+    serde_json::to_value(choice)
+        .ok()
+        .and_then(|v| v.as_str().map(str::to_string))
+        .unwrap_or_default()
 }
 
 /// Human-readable text of a status document (as received over the socket).
@@ -115,14 +139,17 @@ pub fn render_status_text(doc: &Value) -> String {
         u(&engine["running_generation"])
     ));
     out.push_str(&format!(
-        "reloads      {} succeeded, {} failed{}\n",
+        "reloads      {} succeeded, {} failed\n",
         u(&doc["reloads"]["succeeded"]),
         u(&doc["reloads"]["failed"]),
-        doc["reloads"]["last_error"]
-            .as_str()
-            .map(|e| format!(" (last error: {})", e.lines().next().unwrap_or(e)))
-            .unwrap_or_default()
     ));
+    if let Some(error) = doc["reloads"]["last_error"].as_str() {
+        // The whole error: where, why and the help line, indented under its heading.
+        out.push_str(&format!(
+            "last error   {}\n",
+            error.replace('\n', "\n             ")
+        ));
+    }
     out.push_str(&format!(
         "audio        {}: {}, {} Hz, {} channel(s){}\n",
         s(&audio["kind"]),
@@ -227,18 +254,22 @@ pub fn render_status_text(doc: &Value) -> String {
     }
     if let Some(paths) = doc["paths"].as_array() {
         for p in paths {
+            let channels: Vec<String> = p["channels"]
+                .as_array()
+                .map(|c| {
+                    c.iter()
+                        .map(|x| x.as_u64().unwrap_or(0).to_string())
+                        .collect()
+                })
+                .unwrap_or_default();
             out.push_str(&format!(
-                "path         {} {:?}: {} in {}, peak boost {:.1} dB, added latency {} sample(s)\n",
+                "path         {} (audio channel{} {}): {} in {}, peak boost {:.1} dB, added \
+                 latency {} sample(s)\n",
                 s(&p["label"]),
-                p["channels"]
-                    .as_array()
-                    .map(|c| c
-                        .iter()
-                        .map(|x| x.as_u64().unwrap_or(0))
-                        .collect::<Vec<_>>())
-                    .unwrap_or_default(),
-                s(&p["method"]),
-                s(&p["structure"]),
+                if channels.len() == 1 { "" } else { "s" },
+                channels.join(", "),
+                s(&p["method_name"]),
+                s(&p["structure_name"]),
                 f(&p["peak_boost_db"]),
                 u(&p["added_latency_samples"])
             ));

@@ -5,6 +5,8 @@ use std::os::unix::net::UnixStream;
 use std::path::Path;
 use std::time::Duration;
 
+use crate::os_error::plain_os_error;
+
 /// Why the status could not be read.
 #[derive(Debug)]
 pub struct StatusQueryError {
@@ -17,7 +19,8 @@ impl std::fmt::Display for StatusQueryError {
         write!(
             f,
             "cannot read the status from {}: {}\n  help: is `redress run` running, and with the \
-             same --socket? Only the user running the service can read its socket.",
+             same --socket? Only the user running the service can read its socket (for the \
+             system unit: `sudo -u redress redress status`).",
             self.path.display(),
             self.why
         )
@@ -32,19 +35,22 @@ pub fn query_status(path: &Path) -> Result<serde_json::Value, StatusQueryError> 
         path: path.to_path_buf(),
         why,
     };
-    let mut stream = UnixStream::connect(path).map_err(|e| fail(e.to_string()))?;
+    let mut stream = UnixStream::connect(path).map_err(|e| fail(plain_os_error(&e)))?;
     stream
         .set_read_timeout(Some(Duration::from_secs(3)))
         .and_then(|_| stream.set_write_timeout(Some(Duration::from_secs(3))))
-        .map_err(|e| fail(e.to_string()))?;
-    stream
-        .write_all(b"status\n")
-        .map_err(|e| fail(format!("sending the request failed: {e}")))?;
+        .map_err(|e| fail(plain_os_error(&e)))?;
+    stream.write_all(b"status\n").map_err(|e| {
+        fail(format!(
+            "sending the request failed: {}",
+            plain_os_error(&e)
+        ))
+    })?;
     let mut reply = String::new();
     stream
         .take(16 << 20)
         .read_to_string(&mut reply)
-        .map_err(|e| fail(format!("reading the answer failed: {e}")))?;
+        .map_err(|e| fail(format!("reading the answer failed: {}", plain_os_error(&e))))?;
     let value: serde_json::Value = serde_json::from_str(reply.trim())
         .map_err(|e| fail(format!("the answer is not a status document: {e}")))?;
     if let Some(error) = value.get("error").and_then(|e| e.as_str()) {

@@ -65,11 +65,14 @@ impl StatusServer {
         claim_path(path)?;
         let listener = UnixListener::bind(path).map_err(|e| ServiceError::Socket {
             path: path.to_path_buf(),
-            why: format!("cannot listen: {e}"),
+            why: format!("cannot listen: {}", crate::os_error::plain_os_error(&e)),
         })?;
         restrict_socket(path).map_err(|e| ServiceError::Socket {
             path: path.to_path_buf(),
-            why: format!("cannot make the socket owner-only: {e}"),
+            why: format!(
+                "cannot make the socket owner-only: {}",
+                crate::os_error::plain_os_error(&e)
+            ),
         })?;
         listener
             .set_nonblocking(true)
@@ -84,7 +87,10 @@ impl StatusServer {
             .spawn(move || serve(listener, document, flag))
             .map_err(|e| ServiceError::Socket {
                 path: path.to_path_buf(),
-                why: format!("cannot start the status thread: {e}"),
+                why: format!(
+                    "cannot start the status thread: {}",
+                    crate::os_error::plain_os_error(&e)
+                ),
             })?;
         Ok(Self {
             path: path.to_path_buf(),
@@ -127,7 +133,10 @@ fn claim_path(path: &Path) -> Result<(), ServiceError> {
         }),
         Err(_) => std::fs::remove_file(path).map_err(|e| ServiceError::Socket {
             path: path.to_path_buf(),
-            why: format!("a stale socket is in the way and cannot be removed: {e}"),
+            why: format!(
+                "a stale socket is in the way and cannot be removed: {}",
+                crate::os_error::plain_os_error(&e)
+            ),
         }),
     }
 }

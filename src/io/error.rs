@@ -1,6 +1,8 @@
 use std::fmt;
 use std::path::{Path, PathBuf};
 
+use crate::os_error::plain_os_error;
+
 /// Everything that can go wrong reading, writing or comparing audio files.
 ///
 /// Every variant carries the file it concerns, and its `Display` ends with what to do about it,
@@ -32,8 +34,25 @@ pub enum IoError {
         found: u32,
         expected: u32,
     },
+    /// Two files to compare differ in channel count or sample rate.
+    NotComparable {
+        file: PathBuf,
+        reference: PathBuf,
+        /// "channel" or "Hz": what `found` and `expected` count.
+        unit: &'static str,
+        found: u32,
+        expected: u32,
+    },
     /// The output names the input file itself: writing it would destroy the input mid-read.
     OutputIsInput { file: PathBuf },
+    /// The output exists and the command was not asked to replace it.
+    OutputExists { file: PathBuf },
+    /// The folder the output would go in does not exist.
+    OutputFolderMissing { file: PathBuf, folder: PathBuf },
+    /// The output names a folder (or a file is in the way of an output folder).
+    OutputNotFile { file: PathBuf, is_folder: bool },
+    /// Two outputs of one command have the same name.
+    OutputTwice { file: PathBuf },
     /// A block handed to the writer is not a whole number of frames.
     PartialFrame {
         file: PathBuf,
@@ -53,7 +72,12 @@ impl IoError {
             | IoError::Malformed { file, .. }
             | IoError::ChannelMismatch { file, .. }
             | IoError::SampleRateMismatch { file, .. }
+            | IoError::NotComparable { file, .. }
             | IoError::OutputIsInput { file }
+            | IoError::OutputExists { file }
+            | IoError::OutputFolderMissing { file, .. }
+            | IoError::OutputNotFile { file, .. }
+            | IoError::OutputTwice { file }
             | IoError::PartialFrame { file, .. } => file,
         }
     }
@@ -63,6 +87,22 @@ impl IoError {
         if source.kind() == std::io::ErrorKind::NotFound {
             IoError::NotFound {
                 file: file.to_path_buf(),
+            }
+        } else {
+            IoError::Access {
+                file: file.to_path_buf(),
+                source,
+            }
+        }
+    }
+
+    /// Classifies an operating-system error on `file` while creating or writing it: a missing
+    /// path there is a missing folder, not a missing file.
+    pub(crate) fn from_os_write(file: &Path, source: std::io::Error) -> Self {
+        if source.kind() == std::io::ErrorKind::NotFound {
+            IoError::OutputFolderMissing {
+                file: file.to_path_buf(),
+                folder: super::output_files::folder_of(file).to_path_buf(),
             }
         } else {
             IoError::Access {
@@ -127,7 +167,7 @@ impl IoError {
     /// Classifies an error the WAV crate reported while writing `file`.
     pub(crate) fn from_wav_write(file: &Path, error: hound::Error) -> Self {
         match error {
-            hound::Error::IoError(source) => IoError::from_os(file, source),
+            hound::Error::IoError(source) => IoError::from_os_write(file, source),
             other => IoError::Malformed {
                 file: file.to_path_buf(),
                 detail: other.to_string(),
@@ -147,9 +187,9 @@ impl fmt::Display for IoError {
             ),
             IoError::Access { file, source } => write!(
                 f,
-                "{}: {source}\n  help: check that the file (or its folder) exists and that you \
-                 may read or write it",
-                file.display()
+                "{}: {}\n  help: check that you may read the file, or write in its folder",
+                file.display(),
+                plain_os_error(source)
             ),
             IoError::NotWav { file, detail } => write!(
                 f,
@@ -167,6 +207,62 @@ impl fmt::Display for IoError {
                 f,
                 "{}: this is the input file itself; writing the output there would destroy the \
                  input while it is being read\n  help: name another output file",
+                file.display()
+            ),
+            IoError::NotComparable {
+                file,
+                reference,
+                unit,
+                found,
+                expected,
+            } => {
+                let amount = |n: u32| match *unit {
+                    "channel" => format!("{n} channel{}", plural(n as usize)),
+                    _ => format!("{n} {unit}"),
+                };
+                write!(
+                    f,
+                    "{}: {}, but the reference {} has {}\n  help: compare a file with its own \
+                     reference: same channel count, same sample rate",
+                    file.display(),
+                    amount(*found),
+                    reference.display(),
+                    amount(*expected)
+                )
+            }
+            IoError::OutputExists { file } => write!(
+                f,
+                "{}: the file already exists; redress does not write over a file unless asked\n  \
+                 help: name another file, or add --replace to write over this one",
+                file.display()
+            ),
+            IoError::OutputFolderMissing { file, folder } => write!(
+                f,
+                "{}: the folder {} does not exist\n  help: create it first (mkdir -p {}), or \
+                 name a file in a folder that exists",
+                file.display(),
+                folder.display(),
+                folder.display()
+            ),
+            IoError::OutputNotFile { file, is_folder: true } => write!(
+                f,
+                "{}: this is a folder, not a file\n  help: name a file, e.g. {}",
+                file.display(),
+                file.join("out.wav").display()
+            ),
+            IoError::OutputNotFile {
+                file,
+                is_folder: false,
+            } => write!(
+                f,
+                "{}: a file is in the way of this folder\n  help: name a folder (it is created \
+                 when missing), not a file",
+                file.display()
+            ),
+            IoError::OutputTwice { file } => write!(
+                f,
+                "{}: named for two outputs of one command\n  help: give each output its own \
+                 name",
                 file.display()
             ),
             IoError::Malformed { file, detail } => write!(

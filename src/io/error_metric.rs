@@ -141,12 +141,13 @@ pub fn error_db_per_channel(
     })
 }
 
-/// "−87.3 dB", or "−∞ dB (identical)" for an exact match.
+/// "-87.3 dB", or "-∞ dB (identical)" for an exact match (ASCII minus, as everywhere in
+/// redress's output).
 pub fn format_db(db: f64) -> String {
     if db == f64::NEG_INFINITY {
-        "−∞ dB (identical)".to_string()
+        "-∞ dB (identical)".to_string()
     } else {
-        format!("{db:.1} dB").replace('-', "−")
+        format!("{db:.1} dB")
     }
 }
 
@@ -180,7 +181,7 @@ mod tests {
         assert_eq!(measure.db, f64::NEG_INFINITY);
         // Without the delay the two do not line up.
         assert!(error_db(&test, &reference, 2, 0, 0).unwrap().db > -3.0);
-        assert_eq!(format_db(measure.db), "−∞ dB (identical)");
+        assert_eq!(format_db(measure.db), "-∞ dB (identical)");
     }
 
     #[test]
@@ -224,6 +225,6 @@ mod tests {
             error_db(&signal, &signal, 3, 0, 0),
             Err(MetricError::PartialFrame { .. })
         ));
-        assert_eq!(format_db(-87.34), "−87.3 dB");
+        assert_eq!(format_db(-87.34), "-87.3 dB");
     }
 }

@@ -7,6 +7,7 @@ mod error;
 pub mod error_metric;
 pub mod live;
 pub mod offline;
+pub mod output_files;
 pub mod paced_link;
 pub mod programme;
 pub mod simulated_link;
@@ -19,6 +20,7 @@ pub use offline::{
     apply_file, compare_files, distort_file, equalizer_for, run_file, BlockProcessor,
     FileRunOptions, FileRunSummary, OfflineError, ProgressSteps,
 };
+pub use output_files::{check_output_files, check_output_folder, Existing};
 pub use programme::{generate, ProgrammeSpec};
 pub use simulated_link::{SimulatedLink, SimulationError};
 pub use wav::{

@@ -301,21 +301,28 @@ pub fn compare_files(
 ) -> Result<ErrorMeasure, OfflineError> {
     let (reference_samples, reference_format) = read_wav(reference)?;
     let (test_samples, test_format) = read_wav(test)?;
-    if test_format.channels != reference_format.channels {
-        return Err(IoError::ChannelMismatch {
+    let differ = |unit, found: usize, expected: usize| {
+        OfflineError::Io(IoError::NotComparable {
             file: test.to_path_buf(),
-            found: test_format.channels,
-            expected: reference_format.channels,
-        }
-        .into());
+            reference: reference.to_path_buf(),
+            unit,
+            found: found as u32,
+            expected: expected as u32,
+        })
+    };
+    if test_format.channels != reference_format.channels {
+        return Err(differ(
+            "channel",
+            test_format.channels,
+            reference_format.channels,
+        ));
     }
     if test_format.sample_rate != reference_format.sample_rate {
-        return Err(IoError::SampleRateMismatch {
-            file: test.to_path_buf(),
-            found: test_format.sample_rate,
-            expected: reference_format.sample_rate,
-        }
-        .into());
+        return Err(differ(
+            "Hz",
+            test_format.sample_rate as usize,
+            reference_format.sample_rate as usize,
+        ));
     }
     Ok(error_db(
         &test_samples,

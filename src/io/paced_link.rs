@@ -78,6 +78,44 @@ pub enum PacedLinkError {
     Simulation(SimulationError),
     /// The operating system refused a thread.
     Thread(std::io::Error),
+    /// The true link runs at another sample rate or channel count than the config being run:
+    /// the simulation would feed the filters audio they were not designed for.
+    Mismatch {
+        truth: String,
+        what: &'static str,
+        truth_value: String,
+        config_value: String,
+    },
+}
+
+/// Refuses a true link whose sample rate or channel count differs from the running config's,
+/// as `apply` refuses a WAV file of the wrong rate.
+pub fn check_true_link(truth: &Link, config: &Link) -> Result<(), PacedLinkError> {
+    let name = truth
+        .source
+        .as_ref()
+        .map_or("the true link".to_string(), |p| p.display().to_string());
+    let mismatch = |what, t: String, c: String| PacedLinkError::Mismatch {
+        truth: name.clone(),
+        what,
+        truth_value: t,
+        config_value: c,
+    };
+    if truth.sample_rate != config.sample_rate {
+        return Err(mismatch(
+            "sample rate",
+            format!("{} Hz", truth.sample_rate),
+            format!("{} Hz", config.sample_rate),
+        ));
+    }
+    if truth.channel_count != config.channel_count {
+        return Err(mismatch(
+            "channel count",
+            truth.channel_count.to_string(),
+            config.channel_count.to_string(),
+        ));
+    }
+    Ok(())
 }
 
 impl std::fmt::Display for PacedLinkError {
@@ -86,7 +124,19 @@ impl std::fmt::Display for PacedLinkError {
             PacedLinkError::Simulation(e) => write!(f, "{e}"),
             PacedLinkError::Thread(e) => write!(
                 f,
-                "could not start the simulated link's thread: {e}; check the process limits"
+                "could not start the simulated link's thread: {}; check the process limits",
+                crate::os_error::plain_os_error(e)
+            ),
+            PacedLinkError::Mismatch {
+                truth,
+                what,
+                truth_value,
+                config_value,
+            } => write!(
+                f,
+                "{truth}: {what} {truth_value}, but the config being run has {config_value}\n  \
+                 help: give --true-link a description of the same link at the config's {what} \
+                 (the simulation plays the true link's audio into the config's filters)"
             ),
         }
     }

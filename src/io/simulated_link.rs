@@ -23,11 +23,41 @@ impl fmt::Display for SimulationError {
             SimulationError::NoPathForChannel { channel } => write!(
                 f,
                 "no path models audio channel {channel}\n  help: give every channel from 0 to \
-                 channel_count − 1 to exactly one [[path]]"
+                 channel_count - 1 to exactly one [[path]]"
+            ),
+            // The realization's own words are about an inverse (and suggest a substitute
+            // inverse); here the filter is the channel itself, which no substitute replaces.
+            SimulationError::NotRunnable {
+                label,
+                source:
+                    RealizeError::UnstableDesign {
+                        max_pole_radius, ..
+                    }
+                    | RealizeError::UnstableAfterRounding {
+                        max_pole_radius, ..
+                    },
+            } => write!(
+                f,
+                "path `{label}`: the channel itself is unstable (a pole at radius {}, on or \
+                 outside the unit circle), so no signal can be run through it\n  help: a \
+                 physical link is stable; re-check the channel's poles (its denominator a) in \
+                 the config",
+                max_pole_radius
+            ),
+            SimulationError::NotRunnable {
+                label,
+                source: RealizeError::LatticeStageUnstable { .. },
+            } => write!(
+                f,
+                "path `{label}`: the channel itself is unstable (a pole on or outside the unit \
+                 circle), so no signal can be run through it\n  help: a physical link is \
+                 stable; re-check the channel's poles (its denominator a) in the config"
             ),
             SimulationError::NotRunnable { label, source } => write!(
                 f,
-                "path `{label}`: the channel itself cannot be simulated: {source}"
+                "path `{label}`: the channel cannot be run as a filter: {}\n  help: check the \
+                 channel's coefficients in the config",
+                source.to_string().lines().next().unwrap_or_default()
             ),
         }
     }

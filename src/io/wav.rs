@@ -235,7 +235,7 @@ impl WavBlockWriter {
                 ),
             });
         }
-        let handle = File::create(file).map_err(|e| IoError::from_os(file, e))?;
+        let handle = File::create(file).map_err(|e| IoError::from_os_write(file, e))?;
         let writer = hound::WavWriter::new(BufWriter::new(handle), format.spec())
             .map_err(|e| IoError::from_wav_write(file, e))?;
         Ok(Self {

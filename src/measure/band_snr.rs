@@ -67,7 +67,19 @@ pub fn band_snr(model_output: &[f64], residual: &[f64], sample_rate: f64) -> Ban
 /// The outermost frequencies whose SNR reaches `threshold_db`, and how much of the band between
 /// them does.
 pub fn trusted_range(snr: &BandSnr, threshold_db: f64) -> TrustedRange {
-    let good: Vec<bool> = snr.snr_db.iter().map(|&v| v >= threshold_db).collect();
+    trusted_range_above(snr, threshold_db, 0.0)
+}
+
+/// As [`trusted_range`], counting only frequencies at or above `lowest_hz`: below the
+/// frequency a sweep starts at, the model output and the residual are both made of the
+/// sweep's spectral skirt and its fade, and their ratio says nothing about the link.
+pub fn trusted_range_above(snr: &BandSnr, threshold_db: f64, lowest_hz: f64) -> TrustedRange {
+    let good: Vec<bool> = snr
+        .snr_db
+        .iter()
+        .zip(&snr.frequencies_hz)
+        .map(|(&v, &f)| v >= threshold_db && f >= lowest_hz)
+        .collect();
     let first = good.iter().position(|&g| g);
     let last = good.iter().rposition(|&g| g);
     match (first, last) {
@@ -82,6 +94,35 @@ pub fn trusted_range(snr: &BandSnr, threshold_db: f64) -> TrustedRange {
             threshold_db,
         },
     }
+}
+
+/// Crest factors (peak / RMS) between these mark a sine-like signal: a sine or a constant-level
+/// sweep has √2 ≈ 1.41 (common practice); a maximum-length sequence has 1, noise 3 or more.
+const SINE_LIKE_CREST: (f64, f64) = (1.3, 1.6);
+
+/// The frequency a sine-like stimulus (an exponential sweep, or a tone) opens with, from the
+/// length of its first half-cycle; `None` for a noise-like stimulus (a maximum-length
+/// sequence), which excites every band from the start. A rising sweep excites nothing below
+/// its first frequency, so the trusted band starts no lower (the first half-cycle's mean
+/// frequency is a little above the sweep's start, which errs on the safe side).
+pub fn opening_frequency_hz(stimulus: &[f64], sample_rate: f64) -> Option<f64> {
+    let start = stimulus.iter().position(|v| *v != 0.0)?;
+    let end = stimulus.iter().rposition(|v| *v != 0.0)? + 1;
+    let signal = &stimulus[start..end];
+    let peak = signal.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let rms = (signal.iter().map(|v| v * v).sum::<f64>() / signal.len() as f64).sqrt();
+    if !(SINE_LIKE_CREST.0..=SINE_LIKE_CREST.1).contains(&(peak / rms)) {
+        return None;
+    }
+    // The half-cycle runs from the signal's start (a zero crossing: it starts from silence)
+    // to its first change of sign, placed between samples by linear interpolation.
+    let flip = signal
+        .iter()
+        .position(|v| v.signum() != signal[0].signum())?;
+    let (before, after) = (signal[flip - 1], signal[flip]);
+    let crossing = (flip - 1) as f64 + before / (before - after);
+    let half_cycle = crossing + 1.0;
+    Some(sample_rate / (2.0 * half_cycle))
 }
 
 #[cfg(test)]
@@ -105,6 +146,37 @@ mod tests {
         let (lo, hi) = range.band_hz.unwrap();
         assert!(lo < 100.0 && hi > 7_900.0, "{lo}–{hi}");
         assert_eq!(range.coverage, 1.0);
+    }
+
+    #[test]
+    fn a_sweep_opens_at_its_first_frequency_and_a_sequence_at_none() {
+        use crate::measure::{generate_stimulus, StimulusSpec};
+        // A 20 Hz – 8 kHz sweep over 1 s at 16 kHz: its first half-cycle's mean frequency is
+        // 20·e^{t/L} at t ≈ 12.5 ms, L = 1 s / ln(400), about 21.6 Hz (the sweep law, common
+        // practice).
+        let sweep = generate_stimulus(&StimulusSpec {
+            kind: crate::measure::StimulusKind::Sweep {
+                start_hz: 20.0,
+                end_hz: 8_000.0,
+                seconds: 1.0,
+            },
+            ..StimulusSpec::sweep(16_000)
+        })
+        .unwrap();
+        let f = opening_frequency_hz(&sweep.samples, 16_000.0).unwrap();
+        assert!((20.0..23.0).contains(&f), "{f}");
+        let mls = generate_stimulus(&StimulusSpec::mls(16_000)).unwrap();
+        assert_eq!(opening_frequency_hz(&mls.samples, 16_000.0), None);
+        // The band is cut there even where the SNR would pass.
+        let snr = BandSnr {
+            frequencies_hz: vec![15.6, 31.2, 46.9],
+            snr_db: vec![40.0, 40.0, 40.0],
+        };
+        assert_eq!(
+            trusted_range_above(&snr, 20.0, f).band_hz,
+            Some((31.2, 46.9))
+        );
+        assert_eq!(trusted_range(&snr, 20.0).band_hz, Some((15.6, 46.9)));
     }
 
     #[test]

@@ -29,11 +29,8 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
     );
     let _ = writeln!(
         t,
-        "# stimulus  {}: {} frames of signal at {} Hz, peak {} dBFS",
-        sources.stimulus,
-        sources.stimulus_frames,
-        id.sample_rate,
-        format!("{:.1}", sources.stimulus_peak_dbfs).replace('-', "−")
+        "# stimulus  {}: {} frames of signal at {} Hz, peak {:.1} dBFS",
+        sources.stimulus, sources.stimulus_frames, id.sample_rate, sources.stimulus_peak_dbfs
     );
     let _ = writeln!(
         t,
@@ -91,6 +88,11 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
     }
     let _ = writeln!(t);
     let _ = writeln!(t, "[link]");
+    let _ = writeln!(
+        t,
+        "format_version = {}",
+        crate::model::CONFIG_FORMAT_VERSION
+    );
     let _ = writeln!(t, "sample_rate_hz = {}", id.sample_rate);
     let _ = writeln!(t, "channel_count = {}", id.channels.len());
     for c in 0..id.channels.len() {

@@ -2,7 +2,9 @@
 //! the stimulus arrives, fit the FIR model (which also measures the noise), optionally the IIR
 //! model, and judge how far each can be trusted.
 
-use super::band_snr::{band_snr, trusted_range, BandSnr, TrustedRange, TRUST_SNR_DB};
+use super::band_snr::{
+    band_snr, opening_frequency_hz, trusted_range_above, BandSnr, TrustedRange, TRUST_SNR_DB,
+};
 use super::delay::find_delay;
 use super::error::MeasureError;
 use super::fir_fit::{fit_fir, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS};
@@ -205,7 +207,8 @@ fn identify_channel(
     let signal_power = model_output[..span].iter().map(|v| v * v).sum::<f64>() / span as f64;
     let snr_db = 10.0 * (signal_power / fir.noise_variance()).log10();
     let bands = band_snr(&model_output, &residual, sample_rate);
-    let trusted = trusted_range(&bands, TRUST_SNR_DB);
+    let lowest_excited = opening_frequency_hz(stimulus, sample_rate).unwrap_or(0.0);
+    let trusted = trusted_range_above(&bands, TRUST_SNR_DB, lowest_excited);
     if snr_db < LOW_SNR_DB {
         warnings.push(format!(
             "channel {channel}: the measured SNR is only {snr_db:.1} dB; the model is rough — \

@@ -28,7 +28,10 @@ mod summary;
 mod sweep;
 mod workflow;
 
-pub use band_snr::{band_snr, trusted_range, BandSnr, TrustedRange, TRUST_SNR_DB};
+pub use band_snr::{
+    band_snr, opening_frequency_hz, trusted_range, trusted_range_above, BandSnr, TrustedRange,
+    TRUST_SNR_DB,
+};
 pub use delay::{find_delay, DelayFound, MIN_PROMINENCE_DB};
 pub use equalized_check::{equalized_error, EqualizedError};
 pub use error::MeasureError;
@@ -41,7 +44,9 @@ pub use noise::GaussianNoise;
 pub use recording_checks::{check_pair, CheckedPair, NamedSignal, CLIP_LEVEL, SILENCE_DBFS};
 pub use simulated_recording::{simulate_recording, simulate_recording_file, RecordingSimulation};
 pub use stimulus::{
-    generate_stimulus, Stimulus, StimulusKind, StimulusSpec, DEFAULT_LEVEL_DBFS, LEVEL_RANGE_DBFS,
+    generate_stimulus, Stimulus, StimulusKind, StimulusSpec, DEFAULT_FADE_MS, DEFAULT_LEVEL_DBFS,
+    DEFAULT_MLS_ORDER, DEFAULT_SILENCE_SECONDS, DEFAULT_START_HZ, DEFAULT_SWEEP_SECONDS,
+    LEVEL_RANGE_DBFS,
 };
 pub use summary::describe_measurement;
 pub use sweep::{deconvolve_sweep, exponential_sweep, sweep_frequency_at, sweep_inverse_filter};

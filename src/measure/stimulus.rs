@@ -106,10 +106,7 @@ impl StimulusSpec {
         };
         format!(
             "{what}, peak {} dBFS, {} ms fades, {} s of silence after, {} Hz",
-            self.level_dbfs.to_string().replace('-', "−"),
-            self.fade_ms,
-            self.silence_seconds,
-            self.sample_rate
+            self.level_dbfs, self.fade_ms, self.silence_seconds, self.sample_rate
         )
     }
 
@@ -139,7 +136,7 @@ impl StimulusSpec {
                 "level",
                 self.level_dbfs,
                 format!("outside {low} … {high} dBFS"),
-                "start at the default −20 dBFS and raise it only while the recording stays \
+                "start at the default -20 dBFS and raise it only while the recording stays \
                  well below full scale",
             ));
         }

@@ -57,6 +57,8 @@ pub enum ConfigErrorKind {
     ChannelTwice,
     /// An audio channel no path models.
     ChannelNotCovered,
+    /// A config written in a newer format than this build reads.
+    NewerFormat,
 }
 
 /// A config that cannot become a [`crate::model::Link`], told with enough context to fix it.
@@ -112,8 +114,8 @@ impl fmt::Display for ConfigError {
         }
         write!(f, ":")?;
         match (&self.key, &self.value) {
-            (Some(key), Some(value)) => write!(f, " `{key}` = {value}")?,
-            (Some(key), None) => write!(f, " `{key}`")?,
+            (Some(key), Some(value)) => write!(f, " {} = {value}", shown_key(key))?,
+            (Some(key), None) => write!(f, " {}", shown_key(key))?,
             (None, Some(value)) => write!(f, " {value}")?,
             (None, None) => {}
         }
@@ -122,6 +124,21 @@ impl fmt::Display for ConfigError {
 }
 
 impl std::error::Error for ConfigError {}
+
+/// A key path as a person reads it: the `[[path]]` tables are counted from 1, as every report
+/// counts them ("path 2"), so `path[1].structure` is shown as "path 2, `structure`". Indices
+/// inside a key (`zeros[2]`, `b[0]`) stay as the config's arrays count them, from 0.
+fn shown_key(key: &str) -> String {
+    let numbered = key
+        .strip_prefix("path[")
+        .and_then(|rest| rest.split_once(']'))
+        .and_then(|(index, rest)| Some((index.parse::<usize>().ok()? + 1, rest)));
+    match numbered {
+        Some((number, "")) => format!("path {number}"),
+        Some((number, rest)) => format!("path {number}, `{}`", rest.trim_start_matches('.')),
+        None => format!("`{key}`"),
+    }
+}
 
 #[cfg(test)]
 mod tests {
@@ -141,9 +158,19 @@ mod tests {
         e.value = Some("[0.0, 1.0]".into());
         assert_eq!(
             e.to_string(),
-            "configs/x.toml:12:7: `path[1].difference_equation.a` = [0.0, 1.0]\n  \
+            "configs/x.toml:12:7: path 2, `difference_equation.a` = [0.0, 1.0]\n  \
              problem: a[0] is zero\n  help: scale the denominator"
         );
+    }
+
+    #[test]
+    fn paths_are_counted_from_one_as_in_the_reports() {
+        assert_eq!(shown_key("path[0]"), "path 1");
+        assert_eq!(
+            shown_key("path[3].roots.zeros[2]"),
+            "path 4, `roots.zeros[2]`"
+        );
+        assert_eq!(shown_key("link.sample_rate_hz"), "`link.sample_rate_hz`");
     }
 
     #[test]

@@ -29,5 +29,15 @@ pub const SAMPLE_RATE_RANGE: (f64, f64) = (4_000.0, 384_000.0);
 /// Most channels one link may carry.
 pub const MAX_CHANNELS: usize = 64;
 
+/// Device buffers outside this range (frames) are refused: below it no device keeps up, above
+/// it the latency is no longer that of a live link.
+pub const BUFFER_FRAMES_RANGE: (u32, u32) = (16, 16_384);
+
+/// The config format this build reads and `redress identify` writes (`[link] format_version`).
+/// A config without the key is taken to be this format; a newer one is refused, since a key it
+/// relies on could otherwise be misread or ignored. Raised only when a change would make an
+/// older config mean something else.
+pub const CONFIG_FORMAT_VERSION: i64 = 1;
+
 /// Default radius tolerance: a zero with | |z| − 1 | below this counts as on the unit circle.
 pub const DEFAULT_CIRCLE_TOLERANCE: f64 = 1e-9;

@@ -13,6 +13,10 @@ pub struct InversePolicy {
     /// May realization switch to a safer structure when the requested one would be unstable or
     /// too close to the circle after coefficient rounding?
     pub structure_fallback: bool,
+    /// True when the config named the path's structure; false when the structure is the
+    /// default for the channel's order, which the pipeline may replace without comment (an FIR
+    /// inverse then simply runs as a direct form) and which reports call "the default".
+    pub structure_configured: bool,
 }
 
 /// Which inverse to build.
@@ -84,6 +88,7 @@ impl Default for InversePolicy {
             unity_at_hz: None,
             fir: FirSettings::default(),
             structure_fallback: true,
+            structure_configured: false,
         }
     }
 }

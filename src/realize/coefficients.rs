@@ -13,6 +13,7 @@ use super::sparse_recursion::SparseTap;
 #[serde(rename_all = "snake_case")]
 pub enum StructureCoefficients {
     /// H = B/A with a[0] = 1, both of the same length.
+    #[serde(rename = "direct_form_2t")]
     DirectForm2T { b: Vec<f64>, a: Vec<f64> },
     /// H = gain · Π sections, each `[b0, b1, b2, a0, a1, a2]` with a0 = 1, in running order.
     Sections {

@@ -46,7 +46,7 @@ pub use error::RealizeError;
 pub use lattice::LatticeLadder;
 pub use partitioned_convolution::PartitionedConvolution;
 pub use sections::{SectionCascade, SectionCoefficients};
-pub use sparse_recursion::{sparse_taps, SparseRecursion, SparseTap};
+pub use sparse_recursion::{dense_direct_form_taps, sparse_taps, SparseRecursion, SparseTap};
 
 use crate::model::{CoefficientPrecision, Structure, TransferFunction};
 use crate::numeric::stepdown::step_up;

@@ -31,6 +31,14 @@ pub fn sparse_taps(dense: &[f64]) -> Vec<SparseTap> {
         .collect()
 }
 
+/// Coefficients a direct form of `b`/`a` (trailing zeros dropped) touches a sample: every bₖ and
+/// every aₖ past a₀. The figure a sparse recursion's non-zero taps are weighed against.
+pub fn dense_direct_form_taps(b: &[f64], a: &[f64]) -> usize {
+    let b = crate::numeric::poly::trim_trailing_zeros(b);
+    let a = crate::numeric::poly::trim_trailing_zeros(a);
+    b.len() + a.len().saturating_sub(1)
+}
+
 /// A running sparse recursion (a₀ = 1, state f64).
 #[derive(Debug, Clone, PartialEq)]
 pub struct SparseRecursion {

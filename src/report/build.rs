@@ -13,7 +13,7 @@ use crate::analysis::{AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Ver
 use crate::design::{DesignError, DesignMethod, InverseDesign};
 use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
 use crate::pipeline::{LinkPlan, StructureRefusal, StructureSwitch};
-use crate::realize::{PoleEvidence, Realization, StructureCoefficients};
+use crate::realize::{dense_direct_form_taps, PoleEvidence, Realization, StructureCoefficients};
 
 /// The whole link's report. `source` is the config file the link came from, if any.
 pub fn link_report(plan: &LinkPlan, source: Option<&std::path::Path>) -> LinkReport {
@@ -75,7 +75,15 @@ fn realization(
         max_pole_radius: r.max_pole_radius,
         switched_from: switched.map(|s| StructureSwitchEntry {
             requested: structure_key(s.requested),
-            reason: s.reason.clone(),
+            requested_name: s.requested.name().to_string(),
+            requested_by: if s.configured { "config" } else { "default" }.to_string(),
+            // The realization error's help line advises the very switch that was made.
+            reason: s
+                .reason
+                .split("\n  help:")
+                .next()
+                .unwrap_or_default()
+                .to_string(),
         }),
         refused_first: refused
             .iter()
@@ -108,7 +116,7 @@ fn sparse_entry(r: &Realization) -> Option<SparseEntry> {
     Some(SparseEntry {
         taps_touched: numerator.len() + denominator.len(),
         order: *order,
-        dense_taps: 2 * order + 1,
+        dense_taps: dense_direct_form_taps(&runs.b, &runs.a),
         runs_as: difference_equation(&runs.b, &runs.a),
         recursive_tap_sum: match r.pole_evidence {
             PoleEvidence::DominantLeadingTap { others } => Some(others),
@@ -179,7 +187,8 @@ pub fn path_report(
     PathReport {
         label: path.label.clone(),
         channels: path.channels.clone(),
-        form: form_name(path.form).to_string(),
+        form: form_key(path.form).to_string(),
+        form_name: form_words(path.form).to_string(),
         channel: coefficients(&path.channel),
         bulk_delay_samples: bulk_delay,
         bulk_delay_ms: ms(bulk_delay),
@@ -197,13 +206,23 @@ pub fn path_report(
     }
 }
 
-/// The JSON spelling of a model form.
-pub fn form_name(form: ModelForm) -> &'static str {
+/// The JSON spelling of a model form: the config's key for it.
+pub fn form_key(form: ModelForm) -> &'static str {
     match form {
         ModelForm::DifferenceEquation => "difference_equation",
-        ModelForm::ZerosPoles => "zeros_poles",
-        ModelForm::EchoPaths => "echo_paths",
+        ModelForm::ZerosPoles => "roots",
+        ModelForm::EchoPaths => "echoes",
         ModelForm::Sections => "sections",
+    }
+}
+
+/// A model form in plain words.
+pub fn form_words(form: ModelForm) -> &'static str {
+    match form {
+        ModelForm::DifferenceEquation => "a difference equation",
+        ModelForm::ZerosPoles => "zeros and poles",
+        ModelForm::EchoPaths => "echo paths",
+        ModelForm::Sections => "second-order sections",
     }
 }
 
@@ -324,16 +343,23 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
     }
     if !on_circle.is_empty() {
         let count: usize = on_circle.iter().map(|p| p.root.multiplicity).sum();
-        let quoted: Vec<String> = on_circle
+        // A conjugate pair is one tone to a listener: each frequency once, as a positive figure.
+        let mut tones: Vec<f64> = on_circle
+            .iter()
+            .map(|p| (p.root.angle() * sample_rate / TAU).abs())
+            .collect();
+        tones.sort_by(f64::total_cmp);
+        tones.dedup_by(|a, b| (*a - *b).abs() <= 1e-9 * b.abs().max(1.0));
+        let quoted: Vec<String> = tones
             .iter()
             .take(RADII_QUOTED)
-            .map(|p| format!("{} Hz", significant(p.root.angle() * sample_rate / TAU)))
+            .map(|hz| format!("{} Hz", significant(*hz)))
             .collect();
         parts.push(format!(
             "{count} zero{} on the unit circle (at {}{}), where the channel passes nothing",
             plural(count),
             quoted.join(", "),
-            more(on_circle.len())
+            more(tones.len())
         ));
     }
     VerdictEntry {
@@ -361,6 +387,8 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
         residual_delay_ms: ms(d.residual_delay_samples),
         added_latency_samples: d.added_latency_samples,
         added_latency_ms: ms(d.added_latency_samples),
+        total_delay_samples: d.residual_delay_samples + d.added_latency_samples,
+        total_delay_ms: ms(d.residual_delay_samples + d.added_latency_samples),
         peak_boost_db: d.peak_boost_db,
         peak_boost_hz: d.peak_boost_hz,
         decay_60db_ms: d.decay_60db_seconds * 1_000.0,
@@ -472,7 +500,7 @@ mod tests {
         assert_eq!(r.bulk_delay_samples, 3);
         assert!((r.bulk_delay_ms - 0.0625).abs() < 1e-12);
         let inverse = r.inverse.unwrap();
-        assert_eq!(inverse.difference_equation, "y[n] = x[n] − 0.5 y[n−1]");
+        assert_eq!(inverse.difference_equation, "y[n] = x[n] - 0.5 y[n-1]");
         assert_eq!(inverse.residual_delay_samples, 3);
         // Peak of 1/|1 + 0.5 e^{−jω}| is 1/0.5 = 2 (6.02 dB) at ω = π.
         assert!((inverse.peak_boost_db - 20.0 * 2f64.log10()).abs() < 1e-6);

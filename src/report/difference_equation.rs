@@ -2,8 +2,14 @@
 
 use super::numbers::significant;
 
-/// `y[n] = b₀ x[n] + b₁ x[n−1] + … − a₁ y[n−1] − …` for H(z) = B(z)/A(z), normalised so a₀ = 1.
-/// Zero coefficients are left out; a coefficient of exactly 1 is not written.
+/// Coefficients smaller than this share of the largest one are rounding left over from the
+/// design's arithmetic (a few units in the last place of f64), not terms of the filter: the
+/// equation leaves them out. The JSON keeps every coefficient as designed.
+const ROUNDING_NOISE: f64 = 64.0 * f64::EPSILON;
+
+/// `y[n] = b0 x[n] + b1 x[n-1] + … - a1 y[n-1] - …` for H(z) = B(z)/A(z), normalised so a₀ = 1.
+/// Zero coefficients (and rounding noise, see [`ROUNDING_NOISE`]) are left out; a coefficient
+/// of exactly 1 is not written. The minus is ASCII, as everywhere in redress's output.
 pub fn difference_equation(b: &[f64], a: &[f64]) -> String {
     let a0 = a.first().copied().unwrap_or(1.0);
     let a0 = if a0 == 0.0 { 1.0 } else { a0 };
@@ -14,15 +20,19 @@ pub fn difference_equation(b: &[f64], a: &[f64]) -> String {
     for (k, &ak) in a.iter().enumerate().skip(1) {
         terms.push((-ak / a0, signal("y", k)));
     }
+    let largest = terms.iter().fold(0.0f64, |m, (c, _)| m.max(c.abs()));
     let mut text = String::from("y[n] =");
     let mut first = true;
-    for (coefficient, name) in terms.into_iter().filter(|(c, _)| *c != 0.0) {
+    for (coefficient, name) in terms
+        .into_iter()
+        .filter(|(c, _)| *c != 0.0 && c.abs() > ROUNDING_NOISE * largest)
+    {
         let magnitude = coefficient.abs();
-        let sign = if coefficient < 0.0 { "−" } else { "+" };
+        let sign = if coefficient < 0.0 { "-" } else { "+" };
         if first {
             text.push(' ');
             if coefficient < 0.0 {
-                text.push('−');
+                text.push('-');
             }
         } else {
             text.push_str(&format!(" {sign} "));
@@ -44,7 +54,7 @@ fn signal(name: &str, lag: usize) -> String {
     if lag == 0 {
         format!("{name}[n]")
     } else {
-        format!("{name}[n−{lag}]")
+        format!("{name}[n-{lag}]")
     }
 }
 
@@ -58,7 +68,7 @@ mod tests {
         // H = B/A; common practice).
         assert_eq!(
             difference_equation(&[1.0, 0.0, 0.5], &[1.0, -0.3, 0.02]),
-            "y[n] = x[n] + 0.5 x[n−2] + 0.3 y[n−1] − 0.02 y[n−2]"
+            "y[n] = x[n] + 0.5 x[n-2] + 0.3 y[n-1] - 0.02 y[n-2]"
         );
     }
 
@@ -66,7 +76,21 @@ mod tests {
     fn normalises_by_a0_and_leads_with_a_minus() {
         assert_eq!(
             difference_equation(&[-2.0, 1.0], &[2.0, 1.0]),
-            "y[n] = −x[n] + 0.5 x[n−1] − 0.5 y[n−1]"
+            "y[n] = -x[n] + 0.5 x[n-1] - 0.5 y[n-1]"
+        );
+    }
+
+    #[test]
+    fn rounding_noise_is_not_a_term() {
+        // A denominator left with 1.16e-16 where the design meant 0: the term is noise.
+        assert_eq!(
+            difference_equation(&[2.0, 0.5], &[1.0, -1.1618e-16, 0.25]),
+            "y[n] = 2 x[n] + 0.5 x[n-1] - 0.25 y[n-2]"
+        );
+        // A small but real coefficient stays.
+        assert_eq!(
+            difference_equation(&[1.0], &[1.0, 3.5e-10]),
+            "y[n] = x[n] - 3.5e-10 y[n-1]"
         );
     }
 

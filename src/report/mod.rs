@@ -8,10 +8,12 @@ mod json;
 mod numbers;
 pub mod pictures;
 pub mod schema;
+mod summary;
 mod text;
 
-pub use build::{form_name, link_report, path_report};
+pub use build::{form_key, link_report, path_report};
 pub use difference_equation::difference_equation;
 pub use json::render_json;
 pub use schema::{LinkReport, PathReport, SCHEMA_VERSION};
+pub use summary::render_summary;
 pub use text::render_text;

@@ -12,7 +12,7 @@ pub fn significant(x: f64) -> String {
         } else if x > 0.0 {
             "∞".to_string()
         } else {
-            "−∞".to_string()
+            "-∞".to_string()
         };
     }
     let magnitude = x.abs();

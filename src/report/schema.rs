@@ -8,8 +8,12 @@
 
 use serde::Serialize;
 
-/// Bumped when a field is renamed, removed or changes meaning.
-pub const SCHEMA_VERSION: u32 = 1;
+/// Bumped when a field is renamed, removed or changes meaning. Version 2: `form` takes the
+/// config's own key (`roots`, `echoes` where version 1 said `zeros_poles`, `echo_paths`), the
+/// direct form's coefficients are keyed `direct_form_2t` like the structure (version 1:
+/// `direct_form2_t`); added `form_name`, the inverse's `total_delay_samples`/`_ms` and the
+/// switch's `requested_by`.
+pub const SCHEMA_VERSION: u32 = 2;
 
 /// The whole link.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -34,9 +38,11 @@ pub struct PathReport {
     pub label: String,
     /// Zero-based audio channel indices.
     pub channels: Vec<usize>,
-    /// How the config described the channel: "difference_equation", "zeros_poles",
-    /// "echo_paths" or "sections".
+    /// How the config described the channel, by the config's key: "difference_equation",
+    /// "roots", "echoes" or "sections".
     pub form: String,
+    /// The same in plain words, e.g. "zeros and poles".
+    pub form_name: String,
     /// The channel H(z) = B(z)/A(z) as coefficients of z⁻¹.
     pub channel: Coefficients,
     /// Leading zero taps of B: delay the inverse cannot undo.
@@ -144,6 +150,10 @@ pub struct InverseEntry {
     /// Delay the inverse adds on purpose (the FIR inverse's D; 0 otherwise).
     pub added_latency_samples: usize,
     pub added_latency_ms: f64,
+    /// Delay of the equalized output against the original: residual (bulk) delay plus added
+    /// latency. The figure to give `redress compare --delay`.
+    pub total_delay_samples: usize,
+    pub total_delay_ms: f64,
     /// Largest gain of the inverse over frequency and where.
     pub peak_boost_db: f64,
     pub peak_boost_hz: f64,
@@ -269,7 +279,12 @@ pub struct PartitionedEntry {
 /// A switch away from the requested structure.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StructureSwitchEntry {
-    /// The structure the config asked for ("direct_form_2t", "sections", "lattice_ladder").
+    /// The structure that was to be used ("direct_form_2t", "sections", "lattice_ladder").
     pub requested: String,
+    /// The same in plain words.
+    pub requested_name: String,
+    /// "config" when the config named it, "default" when it was the default for the order.
+    pub requested_by: String,
+    /// Why it was not used (the problem only; the switch is what a help line would advise).
     pub reason: String,
 }

@@ -45,27 +45,73 @@ pub fn render_text(report: &LinkReport) -> String {
         render_path(&mut out, path, i + 1, report.paths.len());
     }
     out.push('\n');
-    if report.runnable {
-        let _ = writeln!(out, "summary: every path has a stable inverse ready to run");
-    } else {
+    out.push_str(&summary_line(report));
+    out
+}
+
+/// The closing verdict on the whole link: whether it runs, and which paths run a substitute
+/// rather than the exact inverse (so "ready to run" never reads as "undone exactly").
+pub(super) fn summary_line(report: &LinkReport) -> String {
+    let mut out = String::new();
+    if !report.runnable {
         let _ = writeln!(out, "summary: the link cannot run as configured");
         for problem in &report.problems {
             let _ = writeln!(out, "  - {problem}");
         }
+        return out;
     }
+    let substitutes: Vec<String> = report
+        .paths
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| p.inverse.as_ref().is_some_and(|i| i.method != "exact"))
+        .map(|(i, _)| (i + 1).to_string())
+        .collect();
+    let _ = match substitutes.as_slice() {
+        [] => writeln!(out, "summary: every path has a stable inverse ready to run"),
+        [one] if report.paths.len() == 1 => writeln!(
+            out,
+            "summary: the path has a stable inverse ready to run (a substitute: path {one} has \
+             no stable causal inverse)"
+        ),
+        [one] => writeln!(
+            out,
+            "summary: every path has a stable inverse ready to run (path {one} a substitute: it \
+             has no stable causal inverse)"
+        ),
+        many => writeln!(
+            out,
+            "summary: every path has a stable inverse ready to run (paths {} substitutes: they \
+             have no stable causal inverse)",
+            many.join(", ")
+        ),
+    };
     out
 }
 
-fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize) {
-    let channels: Vec<String> = path.channels.iter().map(|c| c.to_string()).collect();
+/// "audio channel 0" or "audio channels 0, 1" (audio channels are numbered from 0).
+pub(super) fn channels_phrase(channels: &[usize]) -> String {
+    let numbers: Vec<String> = channels.iter().map(|c| c.to_string()).collect();
+    format!(
+        "audio channel{} {}",
+        if channels.len() == 1 { "" } else { "s" },
+        numbers.join(", ")
+    )
+}
+
+/// "path 1 of 2: label  (audio channel 0)", the line every path's block starts with.
+pub(super) fn path_heading(out: &mut String, path: &PathReport, number: usize, total: usize) {
     let _ = writeln!(
         out,
-        "path {number} of {total}: {}  (audio channel{} {})",
+        "path {number} of {total}: {}  ({})",
         path.label,
-        if path.channels.len() == 1 { "" } else { "s" },
-        channels.join(", ")
+        channels_phrase(&path.channels)
     );
-    line(out, 2, "described as", &path.form.replace('_', " "));
+}
+
+fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize) {
+    path_heading(out, path, number, total);
+    line(out, 2, "described as", &path.form_name);
     coefficient_list(out, 2, "channel", "b", &path.channel.b);
     coefficient_list(out, 2, "", "a", &path.channel.a);
     line(
@@ -151,7 +197,7 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
     let _ = writeln!(
         out,
         "    {:>11} {:>11} {:>10} {:>10} {:>11} {:>4}  {:<9} {:>11}",
-        "re", "im", "|z|", "angle rad", "angle Hz", "mult", "where", "1 − |z|"
+        "re", "im", "|z|", "angle rad", "angle Hz", "mult", "where", "1 - |z|"
     );
     for r in by_radius.iter().take(ROOT_ROWS) {
         let _ = writeln!(
@@ -256,28 +302,7 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
         &first_terms(&inverse.difference_equation),
     );
     line(out, 4, "gain", &significant(inverse.gain));
-    line(
-        out,
-        4,
-        "residual delay",
-        &format!(
-            "{} ({} ms), the link's own: no causal filter can advance time",
-            samples(inverse.residual_delay_samples),
-            significant(inverse.residual_delay_ms)
-        ),
-    );
-    if inverse.added_latency_samples > 0 {
-        line(
-            out,
-            4,
-            "added latency",
-            &format!(
-                "{} ({} ms)",
-                samples(inverse.added_latency_samples),
-                significant(inverse.added_latency_ms)
-            ),
-        );
-    }
+    delay_lines(out, inverse);
     line(
         out,
         4,
@@ -374,8 +399,8 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
             4,
             "FIR",
             &format!(
-                "{} taps, delay {} ({} ms, {}), residual error {} dB",
-                fir.taps,
+                "{}, delay {} ({} ms, {}), residual error {} dB",
+                fir_taps(fir.taps, &inverse.coefficients.b),
                 samples(fir.delay_samples),
                 significant(fir.delay_ms),
                 if fir.delay_searched {
@@ -390,9 +415,75 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
     line(out, 4, "gives up", &inverse.gives_up);
 }
 
-/// "0.5 − 0.25j".
+/// The residual delay (the link's own, when there is any), the latency the inverse adds (when
+/// it adds any) and their sum: the one figure to compare the equalized output with.
+fn delay_lines(out: &mut String, inverse: &InverseEntry) {
+    let ms =
+        |samples: usize, ms: f64| format!("{} ({} ms)", self::samples(samples), significant(ms));
+    if inverse.residual_delay_samples > 0 {
+        line(
+            out,
+            4,
+            "residual delay",
+            &format!(
+                "{}, the link's own bulk delay",
+                ms(inverse.residual_delay_samples, inverse.residual_delay_ms)
+            ),
+        );
+    } else {
+        line(out, 4, "residual delay", "none");
+    }
+    if inverse.added_latency_samples > 0 {
+        line(
+            out,
+            4,
+            "added latency",
+            &ms(inverse.added_latency_samples, inverse.added_latency_ms),
+        );
+    }
+    let parts = if inverse.added_latency_samples > 0 {
+        format!(
+            " = bulk delay {} + added latency {}",
+            inverse.residual_delay_samples, inverse.added_latency_samples
+        )
+    } else {
+        String::new()
+    };
+    line(
+        out,
+        4,
+        "total delay",
+        &format!(
+            "{}{parts}; compare the equalized output with --delay {}",
+            ms(inverse.total_delay_samples, inverse.total_delay_ms),
+            inverse.total_delay_samples
+        ),
+    );
+}
+
+/// "192 taps" and, when some are zero, how many carry a coefficient and how many trailing ones
+/// are zero, so the tap count, the terms of the difference equation and what the realization
+/// runs (its own lines say how many coefficients it touches) add up.
+fn fir_taps(taps: usize, b: &[f64]) -> String {
+    let non_zero = b.iter().filter(|v| **v != 0.0).count();
+    let last = b.iter().rposition(|v| *v != 0.0).map_or(0, |i| i + 1);
+    let mut text = format!("{taps} taps");
+    if non_zero < taps {
+        text.push_str(&format!(" ({non_zero} non-zero"));
+        if last < taps {
+            text.push_str(&format!(
+                "; the last {} are zero, so the filter is {last} taps long",
+                taps - last
+            ));
+        }
+        text.push(')');
+    }
+    text
+}
+
+/// "0.5 - 0.25j".
 fn complex(re: f64, im: f64) -> String {
-    let sign = if im < 0.0 { "−" } else { "+" };
+    let sign = if im < 0.0 { "-" } else { "+" };
     format!("{} {sign} {}j", significant(re), significant(im.abs()))
 }
 
@@ -406,8 +497,8 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
         2,
         "realization",
         &format!(
-            "{}, {} coefficients",
-            realization.structure_name, realization.precision
+            "{} (`{}`), {} coefficients",
+            realization.structure_name, realization.structure, realization.precision
         ),
     );
     for refusal in &realization.refused_first {
@@ -423,16 +514,27 @@ fn realization_block(out: &mut String, realization: &RealizationEntry) {
         );
     }
     if let Some(switch) = &realization.switched_from {
-        line(
-            out,
-            4,
-            "switched from",
-            &format!(
-                "{} (asked for): {}",
-                switch.requested.replace('_', " "),
-                switch.reason
-            ),
-        );
+        // Overruling the config is said as such; where the config named no structure, the
+        // pipeline's choice is simply explained.
+        if switch.requested_by == "config" {
+            line(
+                out,
+                4,
+                "switched from",
+                &format!(
+                    "{} (asked for in the config): {}",
+                    switch.requested_name, switch.reason
+                ),
+            );
+        } else if !switch.reason.is_empty()
+            && !realization
+                .refused_first
+                .iter()
+                .any(|r| r.reason == switch.reason)
+        {
+            // (A fallback's reason is the refusal the "tried first" lines already show.)
+            line(out, 4, "chosen because", &switch.reason);
+        }
     }
     let radius = significant(realization.max_pole_radius);
     let poles = match (realization.pole_check.as_str(), &realization.sparse) {
@@ -573,7 +675,7 @@ fn scalar_or_list(value: &serde_json::Value) -> String {
 /// The difference equation up to its [`TERMS_SHOWN`]th term.
 fn first_terms(equation: &str) -> String {
     let mut terms = 0;
-    for (at, _) in equation.match_indices(['+', '−']) {
+    for (at, _) in equation.match_indices(['+', '-']) {
         // A sign between terms stands between spaces; a leading sign does not.
         let spaced = equation[..at].ends_with(' ') && equation[at..].chars().nth(1) == Some(' ');
         if spaced {

@@ -6,7 +6,9 @@ use cpal::traits::{DeviceTrait, HostTrait};
 use cpal::{DeviceId, SupportedBufferSize, SupportedStreamConfigRange};
 
 use super::error::{Direction, LiveError};
+use super::quiet_stderr::QuietStderr;
 use super::samples::DeviceFormat;
+use crate::model::{BUFFER_FRAMES_RANGE, SAMPLE_RATE_RANGE};
 
 /// The word that selects the host's default device.
 pub const DEFAULT_DEVICE: &str = "default";
@@ -62,7 +64,7 @@ pub(crate) fn find_device(
     let not_found = || LiveError::NoSuchDevice {
         direction,
         wanted: wanted.to_string(),
-        available: list_devices_of(host).unwrap_or_else(|e| format!("(listing failed: {e})")),
+        available: device_choices(host, direction),
     };
     let by_default = || default_device(host, direction).ok_or_else(not_found);
     if wanted.is_empty() || wanted.eq_ignore_ascii_case(DEFAULT_DEVICE) {
@@ -110,13 +112,16 @@ pub(crate) fn find_device(
     }
 }
 
-/// A human listing of the default host's devices and what each supports (opens each device
-/// briefly to ask; nothing is started).
-pub fn list_devices() -> Result<String, LiveError> {
-    list_devices_of(&cpal::default_host())
+/// A listing of the default host's devices and what each supports, for `redress devices`
+/// (opens each device briefly to ask; nothing is started). Devices that cannot be opened now
+/// are named on one line at the end; `verbose` gives each its reason and lets the audio
+/// libraries' own messages through (they are silenced otherwise: see [`QuietStderr`]).
+pub fn list_devices(verbose: bool) -> Result<String, LiveError> {
+    let _quiet = (!verbose).then(QuietStderr::new);
+    list_devices_of(&cpal::default_host(), verbose)
 }
 
-fn list_devices_of(host: &cpal::Host) -> Result<String, LiveError> {
+fn list_devices_of(host: &cpal::Host, verbose: bool) -> Result<String, LiveError> {
     let mut out = format!("audio host: {}\n", host.id().name());
     for (direction, device) in [
         (Direction::Capture, host.default_input_device()),
@@ -124,7 +129,7 @@ fn list_devices_of(host: &cpal::Host) -> Result<String, LiveError> {
     ] {
         match device {
             Some(d) => out.push_str(&format!(
-                "default {direction} device: {} — {}\n",
+                "default {direction} device: {} ({})\n",
                 device_label(&d),
                 device_name(&d)
             )),
@@ -135,34 +140,89 @@ fn list_devices_of(host: &cpal::Host) -> Result<String, LiveError> {
         .devices()
         .map_err(|e| LiveError::backend("listing audio devices", e))?;
     let mut any = false;
+    let mut closed: Vec<(String, String)> = Vec::new();
     for device in devices {
         any = true;
-        out.push_str(&format!(
-            "{} — {}\n",
-            device_label(&device),
-            device_name(&device)
-        ));
+        let mut lines = Vec::new();
+        let mut reasons = Vec::new();
         for direction in [Direction::Capture, Direction::Playback] {
             if !supports(&device, direction) {
                 continue;
             }
             match supported_configs(&device, direction) {
-                Ok(ranges) if ranges.is_empty() => {
-                    out.push_str(&format!("    {direction}: no configuration reported\n"))
-                }
                 Ok(ranges) => {
-                    for line in summarize_configs(&ranges) {
-                        out.push_str(&format!("    {direction}: {line}\n"));
+                    let summary = summarize_configs(&ranges);
+                    if summary.is_empty() {
+                        lines.push(format!("    {direction}: nothing redress can run"));
+                    }
+                    for line in summary {
+                        lines.push(format!("    {direction}: {line}"));
                     }
                 }
-                Err(e) => out.push_str(&format!("    {direction}: cannot open ({e})\n")),
+                Err(e) => reasons.push((direction, e.to_string())),
             }
+        }
+        let label = device_label(&device);
+        if lines.is_empty() {
+            closed.push((label, why_closed(&reasons)));
+            continue;
+        }
+        out.push_str(&format!("\n{label} ({})\n", device_name(&device)));
+        for line in lines {
+            out.push_str(&line);
+            out.push('\n');
         }
     }
     if !any {
         out.push_str("no devices found\n");
     }
+    if closed.is_empty() {
+        return Ok(out);
+    }
+    if verbose {
+        out.push_str("\nnot available now (could not be opened):\n");
+        for (label, why) in &closed {
+            out.push_str(&format!("  {label}: {why}\n"));
+        }
+    } else {
+        let labels: Vec<&str> = closed.iter().map(|(l, _)| l.as_str()).collect();
+        out.push_str(&format!(
+            "\nnot available now (could not be opened): {}\n  (`redress devices -v` says why \
+             for each)\n",
+            labels.join(", ")
+        ));
+    }
     Ok(out)
+}
+
+/// Why a device could not be opened: one reason when both directions failed alike.
+fn why_closed(reasons: &[(Direction, String)]) -> String {
+    match reasons {
+        [] => "it offers nothing redress can run".to_string(),
+        [(_, a), (_, b)] if a == b => a.clone(),
+        many => many
+            .iter()
+            .map(|(direction, why)| format!("{direction}: {why}"))
+            .collect::<Vec<_>>()
+            .join("; "),
+    }
+}
+
+/// The devices that support `direction`, one "id (name)" line each: what a user may write as
+/// `input_device` / `output_device`.
+fn device_choices(host: &cpal::Host, direction: Direction) -> String {
+    let Ok(devices) = host.devices() else {
+        return "(the device list could not be read)".to_string();
+    };
+    let lines: Vec<String> = devices
+        .filter(|d| supports(d, direction))
+        .map(|d| format!("{} ({})", device_label(&d), device_name(&d)))
+        .collect();
+    if lines.is_empty() {
+        format!("(no {direction} device at all)")
+    } else {
+        lines.join("\n")
+    }
 }
 
 /// What `device` supports in `direction`.
@@ -176,56 +236,103 @@ pub(crate) fn supported_configs(
     })
 }
 
-/// One line per sample format this tool runs (channel counts, sample rates and the span of
-/// period sizes on offer), then one line naming the other formats the device has.
+/// What a device offers, in terms a user can choose from: formats this tool runs that offer
+/// the same channel counts, rates and periods share a line; rates and periods are cut to what
+/// a config may ask for (sample_rate_hz, buffer_frames), so a plugin that claims "1 to
+/// 4294967295 Hz" reads "any rate from 4000 to 384000 Hz". Formats this tool does not run are
+/// named on a last line.
 pub(crate) fn summarize_configs(ranges: &[SupportedStreamConfigRange]) -> Vec<String> {
     let formats: BTreeSet<cpal::SampleFormat> = ranges.iter().map(|r| r.sample_format()).collect();
     let (runnable, others): (Vec<cpal::SampleFormat>, Vec<cpal::SampleFormat>) = formats
         .into_iter()
         .partition(|f| DeviceFormat::from_cpal(*f).is_some());
-    let mut lines: Vec<String> = runnable
+    let mut lines: Vec<(String, Vec<String>)> = Vec::new();
+    for format in runnable {
+        let of_format: Vec<&SupportedStreamConfigRange> = ranges
+            .iter()
+            .filter(|r| r.sample_format() == format)
+            .collect();
+        let Some(offer) = describe_offer(&of_format) else {
+            continue;
+        };
+        match lines.iter_mut().find(|(text, _)| *text == offer) {
+            Some((_, names)) => names.push(format.to_string()),
+            None => lines.push((offer, vec![format.to_string()])),
+        }
+    }
+    let mut out: Vec<String> = lines
         .into_iter()
-        .map(|format| {
-            let of_format: Vec<&SupportedStreamConfigRange> = ranges
-                .iter()
-                .filter(|r| r.sample_format() == format)
-                .collect();
-            let channels: BTreeSet<u16> = of_format.iter().map(|r| r.channels()).collect();
-            let rates: BTreeSet<(u32, u32)> = of_format
-                .iter()
-                .map(|r| (r.min_sample_rate(), r.max_sample_rate()))
-                .collect();
-            // The period range differs with the channel count (it is a byte limit); the span
-            // over all of them is what a listing can usefully show.
-            let periods = of_format
-                .iter()
-                .filter_map(|r| match r.buffer_size() {
-                    SupportedBufferSize::Range { min, max } => Some((*min, *max)),
-                    SupportedBufferSize::Unknown => None,
-                })
-                .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)));
-            let mut line = format!(
-                "{format}: {} channel(s) at {} Hz",
-                compress(&channels),
-                join_ranges(&rates),
-            );
-            if let Some(span) = periods {
-                line.push_str(&format!(
-                    ", period {} frames",
-                    join_ranges(&BTreeSet::from([span]))
-                ));
-            }
-            line
-        })
+        .map(|(offer, names)| format!("{}: {offer}", names.join(", ")))
         .collect();
     if !others.is_empty() {
         let names: Vec<String> = others.iter().map(|f| f.to_string()).collect();
-        lines.push(format!(
+        out.push(format!(
             "also {} (formats this tool does not run)",
             names.join(", ")
         ));
     }
-    lines
+    out
+}
+
+/// "1–64 channels, any rate from 4000 to 384000 Hz, periods of 16–16384 frames" for the
+/// ranges of one sample format, or `None` when no rate a config may name is among them.
+fn describe_offer(ranges: &[&SupportedStreamConfigRange]) -> Option<String> {
+    let (rate_low, rate_high) = (SAMPLE_RATE_RANGE.0 as u32, SAMPLE_RATE_RANGE.1 as u32);
+    let usable_rates: BTreeSet<(u32, u32)> = ranges
+        .iter()
+        .map(|r| {
+            (
+                r.min_sample_rate().max(rate_low),
+                r.max_sample_rate().min(rate_high),
+            )
+        })
+        .filter(|(lo, hi)| lo <= hi)
+        .collect();
+    if usable_rates.is_empty() {
+        return None;
+    }
+    let channels: BTreeSet<u16> = ranges
+        .iter()
+        .filter(|r| r.max_sample_rate() >= rate_low && r.min_sample_rate() <= rate_high)
+        .map(|r| r.channels())
+        .collect();
+    let rates = if usable_rates == BTreeSet::from([(rate_low, rate_high)]) {
+        format!("any rate from {rate_low} to {rate_high} Hz")
+    } else {
+        format!("{} Hz", join_ranges(&usable_rates))
+    };
+    let mut text = format!(
+        "{} channel{}, {rates}",
+        compress(&channels),
+        if channels.len() == 1 && channels.first() == Some(&1) {
+            ""
+        } else {
+            "s"
+        }
+    );
+    // The period range differs with the channel count (it is a byte limit); the span over all
+    // of them, cut to what buffer_frames may ask, is what a listing can usefully show.
+    let (period_low, period_high) = BUFFER_FRAMES_RANGE;
+    let periods = ranges
+        .iter()
+        .filter_map(|r| match r.buffer_size() {
+            SupportedBufferSize::Range { min, max } => Some((*min, *max)),
+            SupportedBufferSize::Unknown => None,
+        })
+        .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)))
+        .map(|(lo, hi)| (lo.max(period_low), hi.min(period_high)))
+        .filter(|(lo, hi)| lo <= hi);
+    match periods {
+        Some(span) if span == BUFFER_FRAMES_RANGE => text.push_str(&format!(
+            ", any period from {period_low} to {period_high} frames"
+        )),
+        Some(span) => text.push_str(&format!(
+            ", periods of {} frames",
+            join_ranges(&BTreeSet::from([span]))
+        )),
+        None => {}
+    }
+    Some(text)
 }
 
 /// "1–8" for a run of consecutive counts, "1, 2, 6" otherwise.
@@ -292,10 +399,38 @@ mod tests {
         assert_eq!(
             lines,
             vec![
-                "i16: 1, 2 channel(s) at 44100, 48000 Hz, period 32–8192 frames".to_string(),
+                "i16: 1, 2 channels, 44100, 48000 Hz, periods of 32–8192 frames".to_string(),
                 "also u8, f64 (formats this tool does not run)".to_string(),
             ]
         );
+    }
+
+    #[test]
+    fn sentinel_ranges_are_cut_to_what_a_config_may_ask() {
+        // ALSA's null plugin claims every rate a u32 holds and periods to 2^30 frames.
+        let wide = |format| {
+            SupportedStreamConfigRange::new(
+                2,
+                1,
+                u32::MAX,
+                SupportedBufferSize::Range {
+                    min: 1,
+                    max: 1 << 30,
+                },
+                format,
+            )
+        };
+        let lines =
+            summarize_configs(&[wide(cpal::SampleFormat::I16), wide(cpal::SampleFormat::F32)]);
+        assert_eq!(
+            lines,
+            vec![
+                "i16, f32: 2 channels, any rate from 4000 to 384000 Hz, any period from 16 to \
+                 16384 frames"
+                    .to_string()
+            ]
+        );
+        assert!(!lines[0].contains("4294967295"));
     }
 
     #[test]

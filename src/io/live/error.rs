@@ -112,12 +112,12 @@ impl fmt::Display for LiveError {
                 write!(
                     f,
                     "no {direction} device matches `{wanted}`\n  help: give \"default\", a device id, \
-                     or part of a device name from this list:"
+                     or part of a device name; the {direction} devices are:"
                 )?;
                 for line in available.lines() {
                     write!(f, "\n    {line}")?;
                 }
-                Ok(())
+                write!(f, "\n  (`redress devices` shows what each one supports)")
             }
             LiveError::AmbiguousDevice {
                 direction,
@@ -200,10 +200,10 @@ mod tests {
         let e = LiveError::NoSuchDevice {
             direction: Direction::Playback,
             wanted: "rack amp".into(),
-            available: "alsa:default — Default Audio Device\nalsa:eq_out — test".into(),
+            available: "alsa:default (Default Audio Device)\nalsa:eq_out (test)".into(),
         };
         let text = e.to_string();
         assert!(text.starts_with("no playback device matches `rack amp`"));
-        assert!(text.contains("\n    alsa:eq_out — test"));
+        assert!(text.contains("\n    alsa:eq_out (test)"));
     }
 }

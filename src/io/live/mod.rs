@@ -20,6 +20,7 @@ mod error;
 mod playback_side;
 mod playout;
 mod published_count;
+mod quiet_stderr;
 pub mod ring;
 mod round_trip;
 mod samples;

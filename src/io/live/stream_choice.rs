@@ -182,7 +182,7 @@ mod tests {
             text.contains("it has no 2-channel mode (it offers 1 channels)"),
             "{text}"
         );
-        assert!(text.contains("i16: 1 channel(s) at 44100 Hz"), "{text}");
+        assert!(text.contains("i16: 1 channel, 44100 Hz"), "{text}");
 
         let offered = [range(2, 44_100, 44_100, SampleFormat::I16)];
         let text = choose(&offered, None).unwrap_err().to_string();

@@ -26,10 +26,14 @@ impl ChannelOwners {
             if let Some((other, label)) = slot {
                 return Err(node.fail(
                     ConfigErrorKind::ChannelTwice,
-                    format!("channel {channel} is already modelled by path[{other}] (\"{label}\")"),
+                    format!(
+                        "channel {channel} is already modelled by path {} (\"{label}\")",
+                        *other + 1
+                    ),
                     format!(
                         "give each channel to exactly one path: remove {channel} from this path \
-                         or from path[{other}]"
+                         or from path {}",
+                        *other + 1
                     ),
                 ));
             }

@@ -10,7 +10,7 @@ pub(crate) fn read_difference_equation(node: &Node<'_>) -> Result<TransferFuncti
     let table = node.table(&DIFFERENCE_EQUATION_TABLE)?;
     let b_node = table.require(
         B,
-        "give the numerator, e.g. b = [1.0, 0.5] for y[n] = x[n] + 0.5·x[n−1]",
+        "give the numerator, e.g. b = [1.0, 0.5] for y[n] = x[n] + 0.5·x[n-1]",
     )?;
     let b = coefficient_list(&b_node, "b")?;
     if b.iter().all(|&c| c == 0.0) {

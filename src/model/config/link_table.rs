@@ -1,12 +1,14 @@
 //! The `[link]` table: sample rate, channel count, circle tolerance, coefficient precision.
 
 use super::schema::{
-    CHANNEL_COUNT, CIRCLE_TOLERANCE, LINK, LINKED_CHANNELS, LINK_TABLE, PRECISION, SAMPLE_RATE_HZ,
+    CHANNEL_COUNT, CIRCLE_TOLERANCE, FORMAT_VERSION, LINK, LINKED_CHANNELS, LINK_TABLE, PRECISION,
+    SAMPLE_RATE_HZ,
 };
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
 use crate::model::{
-    CoefficientPrecision, DEFAULT_CIRCLE_TOLERANCE, MAX_CHANNELS, SAMPLE_RATE_RANGE,
+    CoefficientPrecision, CONFIG_FORMAT_VERSION, DEFAULT_CIRCLE_TOLERANCE, MAX_CHANNELS,
+    SAMPLE_RATE_RANGE,
 };
 
 /// Largest circle tolerance accepted: beyond it, zeros a tenth of the way to the centre would
@@ -38,6 +40,29 @@ pub(crate) fn read_link<'a>(root: &Table<'a>) -> Result<LinkSettings<'a>, Config
         })?
         .table(&LINK_TABLE)?;
 
+    if let Some(node) = link.get(FORMAT_VERSION) {
+        let version = node.integer()?;
+        if version > CONFIG_FORMAT_VERSION {
+            return Err(node.fail(
+                ConfigErrorKind::NewerFormat,
+                format!(
+                    "this config is written in format {version}, newer than this redress \
+                     reads (format {CONFIG_FORMAT_VERSION}, redress {})",
+                    env!("CARGO_PKG_VERSION")
+                ),
+                "run it with the newer redress that wrote it, or have that redress write a \
+                 config of format 1",
+            ));
+        }
+        if version < 1 {
+            return Err(node.fail(
+                ConfigErrorKind::OutOfRange,
+                format!("format_version must be 1 or more, not {version}"),
+                format!("leave the key out, or write format_version = {CONFIG_FORMAT_VERSION}"),
+            ));
+        }
+    }
+
     let rate_node = link.require(
         SAMPLE_RATE_HZ,
         "add sample_rate_hz = the link's sample rate in Hz, e.g. 48000",
@@ -47,8 +72,24 @@ pub(crate) fn read_link<'a>(root: &Table<'a>) -> Result<LinkSettings<'a>, Config
     if !(low..=high).contains(&sample_rate) {
         return Err(rate_node.fail(
             ConfigErrorKind::OutOfRange,
-            format!("a sample rate of {sample_rate} Hz is outside the supported {low}..={high} Hz"),
+            format!(
+                "a sample rate of {sample_rate} Hz is outside the supported {low} to {high} Hz"
+            ),
             "give the rate in Hz (48000, not 48)",
+        ));
+    }
+    if sample_rate.fract() != 0.0 {
+        return Err(rate_node.fail(
+            ConfigErrorKind::OutOfRange,
+            format!(
+                "a sample rate of {sample_rate} Hz is not a whole number of hertz; WAV files \
+                 and sound devices run at whole rates"
+            ),
+            format!(
+                "give the rate the files and devices run at, e.g. {} or {}",
+                sample_rate.floor(),
+                sample_rate.ceil()
+            ),
         ));
     }
 

@@ -238,3 +238,27 @@ fn crlf_files_parse_and_place_errors_on_the_right_line() {
     assert_eq!(error.key.as_deref(), Some("path[0].difference_equation.c"));
     assert_eq!((error.line, error.column), (Some(7), Some(36)));
 }
+
+// Source: README, Config format — format_version is optional, 1 today; a newer one is refused,
+// 0 is not a format; a whole sample rate may be written with a decimal point, a fractional one
+// is refused.
+#[test]
+fn format_version_and_whole_sample_rates() {
+    let body = "channel_count = 1\n\n[[path]]\nchannels = [0]\ndifference_equation = { b = [1] }\n";
+    let with = |head: &str| parse_link(&format!("[link]\n{head}\n{body}"), None);
+    assert!(with("format_version = 1\nsample_rate_hz = 48000").is_ok());
+    assert!(with("sample_rate_hz = 48000.0").is_ok());
+    let newer = with("format_version = 2\nsample_rate_hz = 48000").unwrap_err();
+    assert_eq!(newer.kind, crate::model::ConfigErrorKind::NewerFormat);
+    assert!(newer.problem.contains("format 2"), "{newer}");
+    let zero = with("format_version = 0\nsample_rate_hz = 48000").unwrap_err();
+    assert!(zero.problem.contains("1 or more"), "{zero}");
+    let fractional = with("sample_rate_hz = 44100.5").unwrap_err();
+    assert!(
+        fractional.problem.contains("not a whole number"),
+        "{fractional}"
+    );
+    let outside = with("sample_rate_hz = 100").unwrap_err();
+    assert!(outside.problem.contains("4000 to 384000"), "{outside}");
+    assert!(!outside.problem.contains("..="), "{outside}");
+}

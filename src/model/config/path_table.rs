@@ -112,7 +112,8 @@ pub(crate) fn read_path<'a>(
         Structure::DirectForm2T
     });
 
-    let inverse = read_inverse(table.get(INVERSE), link.sample_rate)?;
+    let mut inverse = read_inverse(table.get(INVERSE), link.sample_rate)?;
+    inverse.structure_configured = requested_structure.is_some();
 
     Ok(PathDraft {
         path: Path {

@@ -7,11 +7,9 @@ use super::schema::{
 };
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
-use crate::model::{AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings};
-
-/// Device buffers outside this range (frames) are refused: below it no device keeps up, above
-/// it the latency is no longer that of a live link.
-const BUFFER_FRAMES_RANGE: (i64, i64) = (16, 16_384);
+use crate::model::{
+    AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings, BUFFER_FRAMES_RANGE,
+};
 
 /// Reads `[audio]` and `[engine]`, each optional.
 pub(crate) fn read_runtime(root: &Table<'_>) -> Result<RuntimeSettings, ConfigError> {
@@ -46,7 +44,10 @@ fn read_audio(node: &Node<'_>) -> Result<AudioSettings, ConfigError> {
     }
     if let Some(n) = table.get(BUFFER_FRAMES) {
         let frames = n.integer()?;
-        let (low, high) = BUFFER_FRAMES_RANGE;
+        let (low, high) = (
+            i64::from(BUFFER_FRAMES_RANGE.0),
+            i64::from(BUFFER_FRAMES_RANGE.1),
+        );
         if !(low..=high).contains(&frames) {
             return Err(n.fail(
                 ConfigErrorKind::OutOfRange,

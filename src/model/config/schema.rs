@@ -25,9 +25,11 @@ pub(crate) const CHANNEL_COUNT: &str = "channel_count";
 pub(crate) const CIRCLE_TOLERANCE: &str = "circle_tolerance";
 pub(crate) const PRECISION: &str = "precision";
 pub(crate) const LINKED_CHANNELS: &str = "linked_channels";
+pub(crate) const FORMAT_VERSION: &str = "format_version";
 pub(crate) const LINK_TABLE: TableSchema = TableSchema {
     name: "[link]",
     keys: &[
+        FORMAT_VERSION,
         SAMPLE_RATE_HZ,
         CHANNEL_COUNT,
         CIRCLE_TOLERANCE,

@@ -15,7 +15,16 @@ pub(crate) fn explain_syntax_error(line_text: &str, message: &str) -> (String, S
             && !["true", "false", "inf", "nan"].contains(&word);
         is_word.then(|| (key.trim(), word))
     });
-    if let Some((key, word)) = bare_word {
+    if line_text.contains('\u{2212}') {
+        // Copied from a document: TOML (and so the config) knows only the ASCII minus.
+        (
+            format!(
+                "not valid TOML: {message}; the line has a typographic minus `\u{2212}` \
+                 (U+2212), which TOML does not read as a minus"
+            ),
+            "write the minus as `-` (the ASCII hyphen-minus), e.g. a = [1.0, -0.15]".to_owned(),
+        )
+    } else if let Some((key, word)) = bare_word {
         (
             format!("`{word}` is not quoted: text values are written in double quotes"),
             format!("write {key} = \"{word}\""),
@@ -61,6 +70,13 @@ mod tests {
     fn missing_value_is_named() {
         let (problem, _) = explain_syntax_error("channel_count =   # two", "expected literal");
         assert!(problem.contains("value is missing"));
+    }
+
+    #[test]
+    fn a_typographic_minus_is_named() {
+        let (problem, help) = explain_syntax_error("a = [1.0, \u{2212}0.15]", "invalid array");
+        assert!(problem.contains("U+2212"), "{problem}");
+        assert!(help.contains("`-`"), "{help}");
     }
 
     #[test]

@@ -36,10 +36,10 @@ impl fmt::Display for PictureError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(
             f,
-            "{}: the picture could not be written: {}\n  help: check that the folder exists and \
-             is writable",
+            "{}: the picture could not be written: {}\n  help: check that you may write in \
+             its folder",
             self.file.display(),
-            self.why
+            crate::os_error::without_error_number(&self.why)
         )
     }
 }
