@@ -8,7 +8,10 @@ mod common;
 use assert_no_alloc::{assert_no_alloc, reset_violation_count, violation_count, AllocDisabler};
 use common::{echo_line, inverse_set, resonant_line, sine};
 use redress::engine::{engine_pair, EngineSettings};
-use redress::io::live::{duplex_sides, DeviceSample, PREFILL_PERIODS, RING_PERIODS};
+use redress::io::live::realtime::ThreadScheduling;
+use redress::io::live::{
+    duplex_sides, DeviceSample, SchedulingRequest, PREFILL_PERIODS, RING_PERIODS,
+};
 use std::sync::atomic::Ordering;
 
 #[global_allocator]
@@ -33,6 +36,30 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
 
     let block = sine(PERIOD, CHANNELS, 440.0, 0.3, 0);
     let block_i16 = to_i16(&block);
+    reset_violation_count();
+
+    // The first callbacks ask for real-time scheduling (one system call each) and record what
+    // they got, without allocating; on a thread of their own, so the test thread keeps its
+    // schedule whatever the kernel grants.
+    let asked = SchedulingRequest::Fifo(10);
+    let capture_slot = capture.set_scheduling(asked);
+    let playback_slot = playback.set_scheduling(asked);
+    let first = block.clone();
+    let mut first_out = vec![0.0f32; block.len()];
+    let (mut capture, mut playback) = std::thread::spawn(move || {
+        assert_no_alloc(|| {
+            capture.on_input(&first);
+            playback.on_output(&mut first_out);
+        });
+        (capture, playback)
+    })
+    .join()
+    .unwrap();
+    for slot in [&capture_slot, &playback_slot] {
+        let got = ThreadScheduling::read("callback", asked, slot);
+        assert!(got.policy.is_some(), "the first callback recorded nothing");
+        assert!(got.real_time || got.refused.is_some(), "{got:?}");
+    }
     // Longer than the scratch (one period), shorter than the prefill: the sides must cut it
     // into chunks, and the ring has room for it.
     let long = sine(PERIOD + 100, CHANNELS, 1000.0, 0.2, 0);

@@ -38,6 +38,11 @@ channels = [0, 1]
 difference_equation = { b = [1.0, -0.5, 0.2], a = [1.0, -0.25] }
 "#;
 
+/// `[audio]` keys for ALSA's unpaced file devices: they run as fast as the processor allows,
+/// so their callback threads must stay at ordinary priority (a real-time thread that never
+/// waits would take a core from everything else until the kernel's throttle stops it).
+pub const UNPACED: &str = "callback_priority = 0\nlock_memory = false\n";
+
 /// A config that does not parse (the value of `b` is cut off).
 pub const BROKEN: &str = "[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n[[path]]\nchannels = [0, 1]\ndifference_equation = { b = [1.0, \n";
 

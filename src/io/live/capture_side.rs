@@ -7,6 +7,7 @@ use ringbuf::traits::{Observer, Producer};
 use ringbuf::HeapProd;
 
 use super::playout::PlayoutProgress;
+use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
 use crate::engine::{Engine, EngineStats};
 
@@ -22,6 +23,8 @@ pub struct CaptureSide {
     ring: HeapProd<f32>,
     stats: Arc<EngineStats>,
     playout: Arc<PlayoutProgress>,
+    /// Asks for real-time scheduling on the first call, and records what the thread got.
+    scheduling: CallbackScheduling,
 }
 
 impl CaptureSide {
@@ -42,7 +45,15 @@ impl CaptureSide {
             ring,
             stats,
             playout,
+            scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
         }
+    }
+
+    /// What this callback's thread asks for on its first call (nothing, by default); returns
+    /// where it records what it got. Call before the side is handed to a stream.
+    pub fn set_scheduling(&mut self, request: SchedulingRequest) -> Arc<SchedulingSlot> {
+        self.scheduling = CallbackScheduling::new(request);
+        self.scheduling.slot()
     }
 
     /// How far the output has got (shared with the playback side and the control thread).
@@ -56,6 +67,7 @@ impl CaptureSide {
     /// does not fit in the ring is dropped, newest first, and counted in
     /// `EngineStats::input_overruns` (samples). Allocates nothing, locks nothing.
     pub fn on_input<T: DeviceSample>(&mut self, data: &[T]) {
+        self.scheduling.on_callback();
         let whole = data.len() - data.len() % self.channels;
         for chunk in data[..whole].chunks(self.input.len()) {
             let n = chunk.len();

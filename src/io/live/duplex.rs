@@ -8,8 +8,10 @@ use cpal::traits::{DeviceTrait, StreamTrait};
 use super::capture_side::CaptureSide;
 use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
 use super::error::{Direction, LiveError};
+use super::memory_lock::lock_process_memory;
 use super::playback_side::PlaybackSide;
 use super::playout::PlayoutProgress;
+use super::realtime::{request_for_priority, SchedulingWatch};
 use super::ring::{duplex_sides, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
@@ -29,6 +31,11 @@ pub struct DeviceRequest {
     pub channels: u16,
     /// Frames per device period; `None` picks a default the devices accept.
     pub buffer_frames: Option<u32>,
+    /// `SCHED_FIFO` priority both callback threads ask for on their first call (0: ask
+    /// nothing; see [`super::realtime`]).
+    pub callback_priority: u8,
+    /// Lock the process's memory before the streams start, where the limits allow.
+    pub lock_memory: bool,
 }
 
 impl Default for DeviceRequest {
@@ -39,6 +46,8 @@ impl Default for DeviceRequest {
             sample_rate: 48_000,
             channels: 2,
             buffer_frames: None,
+            callback_priority: 0,
+            lock_memory: false,
         }
     }
 }
@@ -113,6 +122,7 @@ pub struct DuplexStreams {
     input_errors: Arc<StreamErrorCounter>,
     output_errors: Arc<StreamErrorCounter>,
     playout: Arc<PlayoutProgress>,
+    scheduling: SchedulingWatch,
 }
 
 /// Device buffering assumed when the playback device reports no delay: the ALSA backend keeps
@@ -155,6 +165,11 @@ impl DuplexStreams {
         }
     }
 
+    /// What the callback threads run at and whether memory is locked.
+    pub fn realtime(&self) -> &SchedulingWatch {
+        &self.scheduling
+    }
+
     /// Stops both streams (the same as dropping).
     pub fn stop(self) {
         drop(self);
@@ -192,8 +207,13 @@ pub fn start_duplex(
     let output_choice = choose_for(&output_device, &output_label, Direction::Playback, request)?;
 
     let period = input_choice.period_frames.max(output_choice.period_frames) as usize;
-    let (capture, playback, ring) = duplex_sides(engine, stats, period);
+    let (mut capture, mut playback, ring) = duplex_sides(engine, stats, period);
     let playout = capture.playout();
+    // Before the streams start: with the future pages locked, their threads' stacks are too.
+    let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
+    let asked = request_for_priority(request.callback_priority);
+    scheduling.add("capture and engine", asked, capture.set_scheduling(asked));
+    scheduling.add("playback", asked, playback.set_scheduling(asked));
 
     let input_errors = Arc::new(StreamErrorCounter::default());
     let output_errors = Arc::new(StreamErrorCounter::default());
@@ -233,6 +253,7 @@ pub fn start_duplex(
         input_errors,
         output_errors,
         playout,
+        scheduling,
     })
 }
 

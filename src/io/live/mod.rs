@@ -17,10 +17,13 @@ mod capture_side;
 mod devices;
 mod duplex;
 mod error;
+mod memory_lock;
+mod os_scheduling;
 mod playback_side;
 mod playout;
 mod published_count;
 mod quiet_stderr;
+pub mod realtime;
 pub mod ring;
 mod round_trip;
 mod samples;
@@ -36,8 +39,12 @@ pub use capture_side::CaptureSide;
 pub use devices::{list_devices, DEFAULT_DEVICE};
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
 pub use error::{Direction, LiveError};
+pub use memory_lock::{lock_process_memory, MemoryLock};
 pub use playback_side::PlaybackSide;
 pub use playout::PlayoutProgress;
+pub use realtime::{
+    request_for_priority, CallbackScheduling, RealtimeStatus, SchedulingRequest, SchedulingWatch,
+};
 pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
 pub use round_trip::{record_loop, LoopRecording, LoopRequest};
 pub use samples::{DeviceFormat, DeviceSample};

@@ -7,6 +7,7 @@ use ringbuf::traits::{Consumer, Observer};
 use ringbuf::HeapCons;
 
 use super::playout::PlayoutProgress;
+use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
 use crate::engine::EngineStats;
 
@@ -18,6 +19,8 @@ pub struct PlaybackSide {
     ring: HeapCons<f32>,
     stats: Arc<EngineStats>,
     playout: Arc<PlayoutProgress>,
+    /// Asks for real-time scheduling on the first call, and records what the thread got.
+    scheduling: CallbackScheduling,
 }
 
 impl PlaybackSide {
@@ -35,7 +38,15 @@ impl PlaybackSide {
             ring,
             stats,
             playout,
+            scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
         }
+    }
+
+    /// What this callback's thread asks for on its first call (nothing, by default); returns
+    /// where it records what it got. Call before the side is handed to a stream.
+    pub fn set_scheduling(&mut self, request: SchedulingRequest) -> Arc<SchedulingSlot> {
+        self.scheduling = CallbackScheduling::new(request);
+        self.scheduling.slot()
     }
 
     /// Notes the delay the device reported for a callback (from its timestamps): how long
@@ -51,6 +62,7 @@ impl PlaybackSide {
     /// the device format. When the ring holds less than asked for, the rest is silence,
     /// counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks nothing.
     pub fn on_output<T: DeviceSample>(&mut self, data: &mut [T]) {
+        self.scheduling.on_callback();
         let mut silence = 0usize;
         let mut taken = 0usize;
         for chunk in data.chunks_mut(self.scratch.len()) {
