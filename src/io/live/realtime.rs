@@ -12,7 +12,7 @@
 //!
 //! Why a thread at `SCHED_FIFO`: under CPU load an ordinary thread waits for time slices of
 //! other programs and misses its deadline; a real-time thread pre-empts them (`redress bench
-//! --load` measures both; README "Real-time priority").
+//! --cpu-load` measures both; README "Real-time priority").
 
 use std::sync::atomic::{AtomicI32, AtomicU8, Ordering};
 use std::sync::Arc;
