@@ -6,6 +6,7 @@
 //! boost more than the cap, the policy picks a substitute and the design says what it costs.
 
 mod boost_cap;
+mod cepstral_minimum_phase;
 mod decay;
 mod exact;
 mod least_squares_fir;
@@ -18,6 +19,7 @@ use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
+pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, FLOOR_MARGIN_DB};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
 pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
@@ -108,6 +110,9 @@ pub struct InverseDesign {
     pub fir: Option<FirReport>,
     /// Gain applied to hold the cascade at 0 dB at the configured frequency (dB; 0 when none).
     pub unity_scale_db: f64,
+    /// How the homomorphic route went, when the minimum-phase substitute was built without
+    /// roots (long channels).
+    pub cepstral: Option<CepstralReport>,
 }
 
 impl InverseDesign {
@@ -121,14 +126,26 @@ impl InverseDesign {
             ));
         }
         if let Some(ap) = &self.all_pass {
+            let reflected = self
+                .cepstral
+                .as_ref()
+                .map_or(self.reflected_zeros.len(), |c| c.reflected_count);
             parts.push(format!(
                 "phase of {} zero(s) outside the circle: an all-pass with {:.3}–{:.3} ms group delay stays uncorrected",
-                self.reflected_zeros.len(),
+                reflected,
                 ap.group_delay_min_ms,
                 ap.group_delay_max_ms
             ));
         }
         if let Some(cap) = &self.boost_cap {
+            if let Some(c) = self.cepstral.as_ref().filter(|c| c.floored_fraction > 0.0) {
+                parts.push(format!(
+                    "depth of the notches over {:.2} % of the band: boost capped at {:.1} dB (uncapped {})",
+                    100.0 * c.floored_fraction,
+                    cap.cap_db,
+                    db_text(cap.peak_before_db)
+                ));
+            }
             if !cap.moved_zeros.is_empty() {
                 parts.push(format!(
                     "depth of {} zero(s) on or near the circle: boost capped at {:.1} dB (uncapped {})",

@@ -289,6 +289,15 @@ fn realize_lattice(
     if !design.stable() {
         return Err(unstable_design(structure, &design));
     }
+    // The step-down's rounding grows as Π 1/(1 − k²); on a long denominator with poles near the
+    // circle the k may then describe another filter (stable, but not this one): check them.
+    let relative_error = sections::relative_difference(&step_up(&k), &a);
+    if relative_error > LATTICE_TOLERANCE {
+        return Err(RealizeError::LatticeMismatch {
+            relative_error,
+            tolerance: LATTICE_TOLERANCE,
+        });
+    }
     // Round k first, then fit the taps to the lattice that will actually run, so the numerator
     // is matched to the rounded denominator's polynomials; then round the taps.
     let k = round_all(&k, precision);
@@ -313,6 +322,9 @@ fn realize_lattice(
         filter: Filter::LatticeLadder(LatticeLadder::new(k, v)),
     })
 }
+
+/// Largest ‖step_up(k) − a‖∞ / ‖a‖∞ accepted from the step-down recursion.
+pub(crate) const LATTICE_TOLERANCE: f64 = 1e-9;
 
 /// Poles of the lattice with reflection coefficients `k`: stable exactly when every |k| < 1;
 /// the radius comes from the roots of the stepped-up denominator.
