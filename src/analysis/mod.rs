@@ -138,8 +138,20 @@ pub fn analyse(
     if channel.a.len() - 1 <= LISTED_ROOTS_MAX_ORDER {
         reconcile("poles", &mut poles, &pole_steps, &mut disagreements);
     }
-    let zero_count = count_zeros("zeros", numerator, &zeros, circle_tolerance, &mut disagreements);
-    let pole_count = count_zeros("poles", &channel.a, &poles, circle_tolerance, &mut disagreements);
+    let zero_count = count_zeros(
+        "zeros",
+        numerator,
+        &zeros,
+        circle_tolerance,
+        &mut disagreements,
+    );
+    let pole_count = count_zeros(
+        "poles",
+        &channel.a,
+        &poles,
+        circle_tolerance,
+        &mut disagreements,
+    );
 
     let channel_stable = if pole_count.listed {
         poles.iter().all(|p| p.placement == Placement::Inside)
@@ -147,7 +159,8 @@ pub fn analyse(
         pole_count.all_inside() && pole_steps.all_inside()
     };
     // Unlisted zeros: the counts decide, the step-down test cautiously overriding.
-    let unlisted_blocked = !zero_count.listed && !(zero_count.all_inside() && zero_steps.all_inside());
+    let unlisted_blocked =
+        !zero_count.listed && !(zero_count.all_inside() && zero_steps.all_inside());
     let on_circle: Vec<PlacedRoot> = zeros
         .iter()
         .filter(|z| z.placement == Placement::OnCircle)

@@ -1,24 +1,23 @@
 //! The minimum-phase substitute and its boost cap without roots: the homomorphic route.
 //!
-//! The magnitude to keep is |B(e^{jω})|, with a floor under it where the inverse would boost
-//! more than the cap: |B_cap| = max(|B|, |A|·10^{−(cap − margin)/20}). Reflecting a zero to
-//! 1/conj(z) keeps |B| (see `minimum_phase`), so the reflected channel is the minimum-phase
-//! sequence of that magnitude, which [`minimum_phase`] builds from the cepstrum without a root.
-//! The floor plays the part of pulling zeros in: a zero near the circle whose notch goes under
-//! the floor is replaced by a shallower one, and nothing else moves. The result is truncated to
-//! the channel's own length (the recursion keeps its order) and then checked:
+//! Reflecting every zero outside the circle to 1/conj(z) keeps |B(e^{jω})| (see
+//! `minimum_phase`), so the reflected numerator is the minimum-phase sequence with B's
+//! magnitude, which [`minimum_phase`] builds from the cepstrum without computing a root. It has
+//! B's length (the reflection keeps the degree), so the inverse keeps the channel's order. Then:
 //!
-//! - all its zeros strictly inside the circle, by the argument principle; if the truncation left
-//!   any on or outside, every zero is pulled in by a common factor ρ (bₖ·ρᵏ) until none is;
-//! - its magnitude against the one it must keep, in dB, where the floor did not act
-//!   ([`CepstralReport::deviation_db`]);
-//! - the inverse's peak against the cap, computed on the final coefficients; what the
-//!   truncation put over it is taken off the level (reported, as the root route does).
+//! - its magnitude is checked against |B| on a grid of 16 points per coefficient
+//!   ([`CepstralReport::deviation_db`]), and all its zeros must be strictly inside the circle
+//!   by the argument principle;
+//! - zeros on the circle (counted by the analysis) have no finite cepstrum: B is first pulled
+//!   in by ρ = 1 − [`ON_CIRCLE_PULL`] (bₖ·ρᵏ moves every zero to ρ·z), which the check shows;
+//! - the boost cap moves only the zeros under peaks over the cap ([`cap_notches`]), and what it
+//!   cannot reach is taken off the level, as on the root route.
 
 use serde::Serialize;
 
 use super::boost_cap::CAP_MARGIN_DB;
 use super::minimum_phase::all_pass_residual;
+use super::notch_cap::cap_notches;
 use super::{decay_60db_samples, BoostCapReport, DesignError, DesignMethod, InverseDesign};
 use crate::analysis::ChannelAnalysis;
 use crate::model::{InversePolicy, TransferFunction};
@@ -26,8 +25,11 @@ use crate::numeric::homomorphic::{magnitude_on_grid, minimum_phase, spectrum_on_
 use crate::numeric::response::peak_magnitude_near;
 use crate::numeric::winding::{count_inside, largest_zero_radius};
 
-/// The floor sits this far under the cap (dB), so the truncation's ripple rarely reaches it.
-pub const FLOOR_MARGIN_DB: f64 = 0.5;
+/// Zeros on the circle are pulled in by this much first (a factor 1 − 10⁻⁵ on every radius),
+/// so the cepstrum is finite and converges within [`crate::numeric::homomorphic::MAX_FFT`].
+pub const ON_CIRCLE_PULL: f64 = 1e-5;
+/// The magnitude check ignores bins this far under the largest |B| (the bottom of a notch).
+const NOTCH_FLOOR: f64 = 1e-6;
 /// First FFT size, in points per coefficient (doubled until the cepstrum converges).
 pub const FFT_POINTS_PER_COEFFICIENT: usize = 32;
 /// Points per coefficient of the grid the result is checked on.
@@ -42,11 +44,10 @@ pub struct CepstralReport {
     pub fft_size: usize,
     /// Largest change of a coefficient at the last doubling, relative to the largest.
     pub last_change: f64,
-    /// Largest |20·log10(|B_min| / |B|)| where the floor did not act, on the check grid (dB).
+    /// Largest |20·log10(|B_min| / |B|)| on the check grid (dB), before the cap moved zeros,
+    /// where |B| is above 10⁻⁶ of its largest (the depth of a notch is not a magnitude to keep).
     pub deviation_db: f64,
-    /// Fraction of the check grid (0 … π) where the floor raised the magnitude.
-    pub floored_fraction: f64,
-    /// Radius factor every zero was pulled in by after truncation (1 when none was needed).
+    /// Radius factor every zero was pulled in by, for zeros on the circle (1 when none).
     pub contraction: f64,
     /// Zeros of the channel outside the circle that were reflected (counted, not listed).
     pub reflected_count: usize,
@@ -61,54 +62,52 @@ pub fn cepstral_inverse(
     policy: &InversePolicy,
     sample_rate: f64,
 ) -> Result<InverseDesign, DesignError> {
-    let numerator = &channel.b[analysis.bulk_delay..];
+    let original = &channel.b[analysis.bulk_delay..];
     let a = &channel.a;
-    let length = numerator.len().max(1);
-    let floor = 10f64.powf(-(policy.boost_cap_db - FLOOR_MARGIN_DB) / 20.0);
-    let target = |size: usize| -> Vec<f64> {
-        let (mb, ma) = (
-            magnitude_on_grid(numerator, size),
-            magnitude_on_grid(a, size),
-        );
-        mb.iter().zip(&ma).map(|(b, a)| b.max(floor * a)).collect()
-    };
-    let first = FFT_POINTS_PER_COEFFICIENT * length.max(a.len());
-    let fitted = minimum_phase(length, first, &target);
+    let length = original.len().max(1);
+    let mut contraction = 1.0;
+    let mut numerator = original.to_vec();
+    if analysis.zero_count.on_circle > 0 {
+        contraction = 1.0 - ON_CIRCLE_PULL;
+        for (k, x) in numerator.iter_mut().enumerate() {
+            *x *= contraction.powi(k as i32);
+        }
+    }
+    let first = FFT_POINTS_PER_COEFFICIENT * length;
+    let fitted = minimum_phase(length, first, &|size| magnitude_on_grid(&numerator, size));
     let mut b_min = fitted.coefficients;
     if b_min.iter().any(|x| !x.is_finite()) || b_min[0] == 0.0 {
         return Err(DesignError::Numerical {
             what: "the cepstral minimum-phase sequence is not finite",
         });
     }
-    let contraction = pull_inside(&mut b_min)?;
+    let pulled = pull_inside(&mut b_min)?;
+    contraction *= pulled;
 
-    // The magnitude it must keep, where the floor did not act, and the peak before the cap.
+    // The magnitude it must keep, and the peak the inverse would have without the cap.
     let grid = (CHECK_POINTS_PER_COEFFICIENT * length.max(a.len()))
         .next_power_of_two()
         .max(8192);
-    let sb = spectrum_on_grid(numerator, grid);
+    let sb = spectrum_on_grid(original, grid);
     let sa = spectrum_on_grid(a, grid);
     let sm = spectrum_on_grid(&b_min, grid);
-    let half = grid / 2;
+    let top = sb.iter().fold(0.0f64, |m, c| m.max(c.norm()));
     let mut deviation_db = 0.0f64;
-    let mut floored = 0usize;
     let mut peak_before = f64::NEG_INFINITY;
-    for i in 0..=half {
+    for i in 0..=grid / 2 {
         let (b, a, m) = (sb[i].norm(), sa[i].norm(), sm[i].norm());
         peak_before = peak_before.max(20.0 * (a / b).log10());
-        if b >= floor * a {
+        if b >= NOTCH_FLOOR * top {
             deviation_db = deviation_db.max((20.0 * (m / b).log10()).abs());
-        } else {
-            floored += 1;
         }
     }
-    let peak_before = if peak_before.is_nan() {
-        f64::INFINITY
-    } else {
-        peak_before
-    };
-    // The capped inverse's peak, on its own coefficients; over the cap → lower the level.
+    if peak_before.is_nan() {
+        peak_before = f64::INFINITY;
+    }
+    // The cap: the zeros under the peaks move; what is left comes off the level.
     let target_db = policy.boost_cap_db - CAP_MARGIN_DB;
+    let reflected_only = b_min.clone();
+    let capped = cap_notches(a, &mut b_min, target_db);
     let mut peak = peak_magnitude_near(a, &b_min, &[]);
     let mut level_reduction_db = 0.0;
     if peak.level_db > target_db {
@@ -118,18 +117,18 @@ pub fn cepstral_inverse(
         peak = peak_magnitude_near(a, &b_min, &[]);
     }
     let reflected_count = analysis.zero_count.outside;
-    let all_pass = (reflected_count > 0).then(|| {
-        let unscaled: Vec<f64> = b_min
-            .iter()
-            .map(|x| x / 10f64.powf(level_reduction_db / 20.0))
-            .collect();
-        all_pass_residual(numerator, &unscaled, sample_rate)
-    });
-    let capped = floored > 0 || level_reduction_db > 0.0;
-    let boost_cap = capped.then(|| BoostCapReport {
+    // The all-pass is B over its reflection alone (before the cap moved anything).
+    let all_pass =
+        (reflected_count > 0).then(|| all_pass_residual(original, &reflected_only, sample_rate));
+    let acted = !capped.moved.is_empty() || level_reduction_db > 0.0;
+    let boost_cap = acted.then(|| BoostCapReport {
         cap_db: policy.boost_cap_db,
-        radius_limit: None,
-        moved_zeros: Vec::new(),
+        radius_limit: capped
+            .moved
+            .iter()
+            .map(|m| m.to.norm())
+            .fold(None, |m: Option<f64>, r| Some(m.map_or(r, |m| m.max(r)))),
+        moved_zeros: capped.moved.clone(),
         level_reduction_db,
         peak_before_db: peak_before,
         decay_60db_before_seconds: f64::NAN,
@@ -160,7 +159,6 @@ pub fn cepstral_inverse(
             fft_size: fitted.fft_size,
             last_change: fitted.last_change,
             deviation_db,
-            floored_fraction: floored as f64 / (half + 1) as f64,
             contraction,
             reflected_count,
             on_circle_count: analysis.zero_count.on_circle,

@@ -11,6 +11,7 @@ mod decay;
 mod exact;
 mod least_squares_fir;
 mod minimum_phase;
+mod notch_cap;
 mod substitute;
 
 use serde::Serialize;
@@ -19,11 +20,12 @@ use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
-pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, FLOOR_MARGIN_DB};
+pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, ON_CIRCLE_PULL};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
 pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
+pub use notch_cap::{cap_notches, NotchCap};
 pub use substitute::design_inverse;
 
 /// How an inverse was obtained.
@@ -138,14 +140,6 @@ impl InverseDesign {
             ));
         }
         if let Some(cap) = &self.boost_cap {
-            if let Some(c) = self.cepstral.as_ref().filter(|c| c.floored_fraction > 0.0) {
-                parts.push(format!(
-                    "depth of the notches over {:.2} % of the band: boost capped at {:.1} dB (uncapped {})",
-                    100.0 * c.floored_fraction,
-                    cap.cap_db,
-                    db_text(cap.peak_before_db)
-                ));
-            }
             if !cap.moved_zeros.is_empty() {
                 parts.push(format!(
                     "depth of {} zero(s) on or near the circle: boost capped at {:.1} dB (uncapped {})",

@@ -14,7 +14,7 @@ use rustfft::num_complex::Complex64;
 use rustfft::FftPlanner;
 
 /// Relative change between two FFT sizes under which the result counts as converged.
-pub const CONVERGED: f64 = 1e-10;
+pub const CONVERGED: f64 = 1e-9;
 /// Largest FFT tried (points over the whole circle).
 pub const MAX_FFT: usize = 1 << 22;
 

@@ -7,8 +7,8 @@
 use crate::model::CoefficientPrecision;
 use crate::numeric::poly::trim_trailing_zeros;
 use crate::numeric::roots::{find_roots, AFFORDABLE_ORDER};
-use crate::numeric::winding::largest_zero_radius;
 use crate::numeric::stepdown::step_down;
+use crate::numeric::winding::largest_zero_radius;
 
 /// A pole with radius at or above `1 − STABILITY_MARGIN` is treated as on the circle: such a
 /// filter would ring for longer than any audio session (10¹² samples), or grow.

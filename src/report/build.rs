@@ -5,9 +5,9 @@ use std::f64::consts::TAU;
 use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
-    AllPassEntry, BlockingZero, BoostCapEntry, CepstralEntry, Coefficients, CountEntry, FirEntry, InverseEntry, LinkReport,
-    MovedZeroEntry, PathReport, RealizationEntry, RootEntry, StepDownEntry, StructureSwitchEntry,
-    VerdictEntry, SCHEMA_VERSION,
+    AllPassEntry, BlockingZero, BoostCapEntry, CepstralEntry, Coefficients, CountEntry, FirEntry,
+    InverseEntry, LinkReport, MovedZeroEntry, PathReport, RealizationEntry, RootEntry,
+    StepDownEntry, StructureSwitchEntry, VerdictEntry, SCHEMA_VERSION,
 };
 use crate::analysis::{
     AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict, ZeroCount,
@@ -414,7 +414,6 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
         cepstral: d.cepstral.as_ref().map(|c| CepstralEntry {
             fft_size: c.fft_size,
             deviation_db: c.deviation_db,
-            floored_fraction: c.floored_fraction,
             reflected_count: c.reflected_count,
             contraction: c.contraction,
         }),

@@ -186,10 +186,8 @@ pub struct InverseEntry {
 pub struct CepstralEntry {
     /// FFT size the cepstrum converged at (points over the whole circle).
     pub fft_size: usize,
-    /// Largest |20·log10(|B_min| / |B|)| where the cap's floor did not act (dB).
+    /// Largest |20·log10(|B_min| / |B|)| before the cap moved zeros, notch bottoms aside (dB).
     pub deviation_db: f64,
-    /// Fraction of 0 … fs/2 where the floor raised the magnitude to respect the cap.
-    pub floored_fraction: f64,
     /// Zeros reflected from outside the circle (counted, not listed).
     pub reflected_count: usize,
     /// Common factor every zero was pulled in by after truncation (1: none).

@@ -395,12 +395,15 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
             4,
             "built by",
             &format!(
-                "the cepstrum on a {}-point FFT (no roots); magnitude kept within {} dB where \
-                 the cap did not act{}",
+                "the cepstrum on a {}-point FFT (no roots); magnitude kept within {} dB before \
+                 the cap{}",
                 c.fft_size,
                 significant(c.deviation_db),
                 if c.contraction < 1.0 {
-                    format!("; zeros pulled in by a factor {}", significant(c.contraction))
+                    format!(
+                        "; zeros pulled in by a factor {}",
+                        significant(c.contraction)
+                    )
                 } else {
                     String::new()
                 }
