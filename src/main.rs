@@ -36,7 +36,8 @@ Exit codes:
   0  done (for `check`: every path has an inverse ready to run)
   1  a file could not be read or written, or a WAV file was unusable
   2  the config (or the command line) is invalid
-  3  the config is valid but some path has no runnable inverse";
+  3  the config is valid but some path has no runnable inverse (for identify: the measurement
+     gives no model fit to equalize with, and none is written)";
 
 /// The demo's link when no config is named: a line with one echo, built into the binary so the
 /// demo needs no files.

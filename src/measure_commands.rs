@@ -7,9 +7,9 @@ use clap::{Subcommand, ValueEnum};
 
 use redress::io::{write_wav, WavFormat};
 use redress::measure::{
-    describe_measurement, generate_stimulus, identify_files, simulate_recording_file, FirLength,
-    IdentifySettings, IirOrders, MeasureError, RecordingSimulation, StimulusKind, StimulusSpec,
-    DEFAULT_LEVEL_DBFS, DEFAULT_MOST_FIR_TAPS,
+    describe_measurement, generate_stimulus, identify_files, refusal_reasons,
+    simulate_recording_file, FirLength, IdentifySettings, IirOrders, MeasureError,
+    RecordingSimulation, StimulusKind, StimulusSpec, DEFAULT_LEVEL_DBFS, DEFAULT_MOST_FIR_TAPS,
 };
 use redress::model::config::load_link;
 use redress::pipeline::LinkPlan;
@@ -285,6 +285,22 @@ fn identify(
         Ok(o) => o,
         Err(e) => return fail(&e),
     };
+    let refused = refusal_reasons(&outcome);
+    if !refused.is_empty() {
+        print!("{}", describe_measurement(&outcome));
+        eprintln!(
+            "error: the measurement gives no model fit to equalize with; {} was not written:",
+            output.display()
+        );
+        for reason in &refused {
+            eprintln!("  - {reason}");
+        }
+        eprintln!(
+            "  help: raise the stimulus level (carefully) or lengthen the sweep for more SNR, \
+             then measure again"
+        );
+        return exit::NOT_RUNNABLE;
+    }
     if let Err(e) = std::fs::write(output, &outcome.config_text) {
         eprintln!(
             "error: {}: the fitted config could not be written: {e}\n  help: check that the \
