@@ -1,7 +1,8 @@
 #!/bin/sh
 # Regenerates the reference fixtures in a temporary folder and compares them byte for byte with
 # the committed ones: tests/fixtures/reference (make_fixtures.py), tests/fixtures/substitutes
-# (make_substitute_fixtures.py) and tests/fixtures/measure (make_measure_fixtures.py). Exits
+# (make_substitute_fixtures.py), tests/fixtures/measure (make_measure_fixtures.py) and
+# tests/fixtures/long_channels (make_long_channel_fixtures.py, which also needs pyroomacoustics). Exits
 # non-zero when any set differs; every set is always checked.
 #
 # The pinned numpy/scipy live in a virtual environment: REDRESS_REFERENCE_VENV names it
@@ -20,4 +21,5 @@ status=0
 "$venv/bin/python" "$here/make_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_substitute_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_measure_fixtures.py" --check || status=1
+"$venv/bin/python" "$here/make_long_channel_fixtures.py" --check || status=1
 exit "$status"
