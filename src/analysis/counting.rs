@@ -20,6 +20,9 @@ use crate::numeric::winding::{count_inside, WindingCount};
 /// Largest order whose roots are computed and listed (companion-matrix eigenvalues, O(n³)).
 pub const LISTED_ROOTS_MAX_ORDER: usize = crate::numeric::roots::AFFORDABLE_ORDER;
 
+/// Listed roots are cross-checked by the argument principle above this order.
+pub const CROSS_CHECK_FROM_ORDER: usize = 64;
+
 /// The step-down count is trusted while growth · order · ε stays under this.
 pub const STEP_DOWN_TRUSTED_ERROR: f64 = 1e-6;
 
@@ -83,6 +86,16 @@ pub fn count_zeros(
         };
     }
     if listed {
+        // The argument principle cross-checks the roots where they start to lose accuracy;
+        // below that order the roots and the step-down test decide, as they always have.
+        let cross_check = degree > CROSS_CHECK_FROM_ORDER;
+        let winding_at = |r: f64| {
+            if cross_check {
+                count_inside(c, r).ok()
+            } else {
+                None
+            }
+        };
         let sum = |p: Placement| {
             roots
                 .iter()
@@ -95,8 +108,8 @@ pub fn count_zeros(
             on_circle: sum(Placement::OnCircle),
             outside: sum(Placement::Outside),
             listed,
-            winding_inside: count_inside(c, 1.0 - tolerance).ok(),
-            winding_within: count_inside(c, 1.0 + tolerance).ok(),
+            winding_inside: winding_at(1.0 - tolerance),
+            winding_within: winding_at(1.0 + tolerance),
             step_down,
             step_down_trusted,
         };

@@ -160,7 +160,7 @@ pub fn analyse(
     };
     // Unlisted zeros: the counts decide, the step-down test cautiously overriding.
     let unlisted_blocked =
-        !zero_count.listed && !(zero_count.all_inside() && zero_steps.all_inside());
+        !(zero_count.listed || zero_count.all_inside() && zero_steps.all_inside());
     let on_circle: Vec<PlacedRoot> = zeros
         .iter()
         .filter(|z| z.placement == Placement::OnCircle)

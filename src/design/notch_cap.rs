@@ -153,9 +153,9 @@ fn divide(b: &[f64], factor: &[f64]) -> Option<Vec<f64>> {
     let scale = b.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     let remainder = (q.len()..b.len()).fold(0.0f64, |m, k| {
         let mut v = b[k];
-        for j in 1..=d {
+        for (j, f) in factor.iter().enumerate().skip(1) {
             if let Some(i) = k.checked_sub(j) {
-                v -= factor[j] * q.get(i).copied().unwrap_or(0.0);
+                v -= f * q.get(i).copied().unwrap_or(0.0);
             }
         }
         m.max(v.abs())

@@ -73,7 +73,8 @@ impl std::error::Error for WindingError {}
 
 /// Counts the zeros of `b[0] + b[1]·z⁻¹ + … + b[n]·z⁻ⁿ` (b[0] ≠ 0) strictly inside |z| < `radius`.
 pub fn count_inside(b: &[f64], radius: f64) -> Result<WindingCount, WindingError> {
-    if b.is_empty() || b[0] == 0.0 || !(radius > 0.0) {
+    if b.is_empty() || b[0] == 0.0 || radius.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
+    {
         return Err(WindingError::Degenerate);
     }
     let n = b.len() - 1;
