@@ -7,8 +7,11 @@
 //! and minimum-phase channels made safe by Rouché's theorem (Σ_{k≥1}|bₖ| < |b₀| puts every zero
 //! strictly inside; common practice) with zero pairs at radius 0.9998 multiplied in.
 
+mod cap_residual;
+
 use num_complex::Complex64;
 
+use cap_residual::left_by_cap;
 use redress::design::DesignMethod;
 use redress::model::config::parse_link;
 use redress::model::Structure;
@@ -81,21 +84,6 @@ fn cascade_db(channel: &[f64], b: &[f64], a: &[f64], omega: f64) -> f64 {
     let z = Complex64::from_polar(1.0, omega);
     let v = eval_z_inverse(channel, z) * eval_z_inverse(b, z) / eval_z_inverse(a, z);
     20.0 * v.norm().log10()
-}
-
-/// What the cap's moves leave in the cascade at ω (dB): Σ 20·log10(|1 − from·e^{−jω}| /
-/// |1 − to·e^{−jω}|) over the moved zeros, less the level reduction.
-fn left_by_cap(design: &redress::design::InverseDesign, omega: f64) -> f64 {
-    let Some(cap) = &design.boost_cap else {
-        return 0.0;
-    };
-    let e = Complex64::from_polar(1.0, -omega);
-    let one = Complex64::new(1.0, 0.0);
-    cap.moved_zeros
-        .iter()
-        .map(|m| 20.0 * ((one - m.from * e).norm() / (one - m.to * e).norm()).log10())
-        .sum::<f64>()
-        - cap.level_reduction_db
 }
 
 /// Runs `input` through the realized filter of the plan's only path.

@@ -5,9 +5,12 @@
 
 use std::path::Path;
 
+mod cap_residual;
+
 use num_complex::Complex64;
 use serde::Deserialize;
 
+use cap_residual::left_by_cap;
 use redress::design::{DesignMethod, InverseDesign};
 use redress::model::config::parse_link;
 use redress::numeric::homomorphic::{magnitude_on_grid, minimum_phase};
@@ -64,20 +67,6 @@ fn plan(f: &Fixture, b: &[f64], inverse: &str) -> LinkPlan {
 
 fn design(plan: &LinkPlan) -> &InverseDesign {
     plan.paths[0].design.as_ref().unwrap().as_ref().unwrap()
-}
-
-/// What the cap's moves and level leave in the cascade at ω (dB).
-fn left_by_cap(d: &InverseDesign, omega: f64) -> f64 {
-    let Some(cap) = &d.boost_cap else {
-        return 0.0;
-    };
-    let e = Complex64::from_polar(1.0, -omega);
-    let one = Complex64::new(1.0, 0.0);
-    cap.moved_zeros
-        .iter()
-        .map(|m| 20.0 * ((one - m.from * e).norm() / (one - m.to * e).norm()).log10())
-        .sum::<f64>()
-        - cap.level_reduction_db
 }
 
 /// Frequencies where the channel is within 60 dB of its largest level (the depth of a notch
