@@ -103,8 +103,15 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
             );
         }
         if let Some(steps) = &path.step_down {
+            let listed = path.zero_count.as_ref().is_none_or(|c| c.listed)
+                && path.pole_count.as_ref().is_none_or(|c| c.listed);
             if steps.agrees_with_roots {
-                line(out, 2, "step-down test", "agrees with the roots");
+                let with = if listed {
+                    "agrees with the roots"
+                } else {
+                    "agrees with the counts"
+                };
+                line(out, 2, "step-down test", with);
             } else {
                 line(
                     out,
