@@ -7,7 +7,7 @@ use clap::{Subcommand, ValueEnum};
 
 use redress::io::{write_wav, WavFormat};
 use redress::measure::{
-    describe_measurement, generate_stimulus, identify_files, refusal_reasons,
+    describe_measurement, equalized_warning, generate_stimulus, identify_files, refusal_reasons,
     simulate_recording_file, FirLength, IdentifySettings, IirOrders, MeasureError,
     RecordingSimulation, StimulusKind, StimulusSpec, DEFAULT_LEVEL_DBFS, DEFAULT_MOST_FIR_TAPS,
 };
@@ -311,6 +311,9 @@ fn identify(
     }
     let summary = describe_measurement(&outcome);
     print!("{summary}");
+    if let Some(warning) = equalized_warning(&outcome) {
+        println!("  warning: {warning}");
+    }
     println!("fitted config: {}", output.display());
     if let Some(dir) = report {
         match write_measurement_report(&outcome, dir, &summary) {

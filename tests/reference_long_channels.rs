@@ -31,6 +31,8 @@ struct Fixture {
     fir_delay: usize,
     fir_lstsq_taps: Vec<f64>,
     fir_residual_db: f64,
+    zeros_outside_numpy_roots: usize,
+    zeros_near_circle_numpy_roots: usize,
 }
 
 fn fixtures() -> Vec<Fixture> {
@@ -114,6 +116,23 @@ fn reflection_keeps_the_magnitude_scipy_finds() {
             f.name,
             steps.stopped_at
         );
+    }
+}
+
+// Source: numpy.roots 2.4.6 — the number of zeros outside the circle, which the analysis finds
+// by the argument principle (at 1023 zeros, not listed) or from its own roots (255).
+#[test]
+fn zeros_outside_counted_as_numpy_finds() {
+    for f in fixtures() {
+        assert_eq!(f.zeros_near_circle_numpy_roots, 0, "{}", f.name);
+        let plan = plan(&f, &f.b, "");
+        let analysis = plan.paths[0].analysis.as_ref().unwrap();
+        assert_eq!(
+            analysis.zero_count.outside, f.zeros_outside_numpy_roots,
+            "{}",
+            f.name
+        );
+        assert_eq!(analysis.zero_count.listed, f.b.len() <= 257, "{}", f.name);
     }
 }
 

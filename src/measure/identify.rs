@@ -10,8 +10,9 @@ use super::iir_fit::{filter, fit_iir, IirFit, IirOrders};
 use super::recording_checks::CheckedPair;
 use crate::model::MAX_ORDER;
 
-/// The onset is searched this many frames before the correlation peak: a link's response may
-/// build up before its largest sample (a precursor, or a non-minimum-phase channel).
+/// The onset is searched at least this many frames before the correlation peak (and a quarter
+/// of the longest model, when that is more): a link's response may build up before its
+/// largest sample (a precursor, or a non-minimum-phase channel).
 pub const ONSET_SEARCH_FRAMES: usize = 128;
 /// A tap smaller than this fraction of the largest (−60 dB) does not mark the onset.
 const ONSET_FRACTION: f64 = 1e-3;
@@ -162,7 +163,16 @@ fn identify_channel(
             stimulus.len()
         ),
     };
-    let search_from = found.peak_lag - found.peak_lag.min(ONSET_SEARCH_FRAMES);
+    let longest = match settings.fir_length {
+        FirLength::Fixed(taps) => taps,
+        FirLength::Automatic { most } => most,
+    };
+    // A long response can build up for a good part of its length before the correlation peaks
+    // (a room's strongest arrival is often a cluster of reflections, and a sweep's correlation
+    // weights the low frequencies): search back a quarter of the longest model, at least the
+    // stated minimum.
+    let search_back = ONSET_SEARCH_FRAMES.max(longest / 4);
+    let search_from = found.peak_lag - found.peak_lag.min(search_back);
     if response.len() < search_from + stimulus.len() {
         return Err(too_short(search_from));
     }
@@ -171,10 +181,6 @@ fn identify_channel(
     // over the taps it has, the leading ones too; with a long stimulus the noise threshold falls
     // under that leakage and the onset was read up to 128 frames early. So its length is chosen
     // as the final model's is, with room for the frames searched before the peak.
-    let longest = match settings.fir_length {
-        FirLength::Fixed(taps) => taps,
-        FirLength::Automatic { most } => most,
-    };
     let first_look = fit_fir(
         stimulus,
         &response[search_from..],
@@ -185,7 +191,11 @@ fn identify_channel(
     let first_tap = onset_of(&first_look, stimulus);
     if first_tap == 0 && search_from > 0 {
         warnings.push(format!(
-            "{response_name}, channel {channel}: the response is already under way              {ONSET_SEARCH_FRAMES} frames before its largest sample, the farthest the onset is              searched; a longer build-up is left out of the model"
+            "{response_name}, channel {channel}: the response is already under way {} frames \
+             before its correlation peak, the farthest the onset is searched; a longer build-up \
+             is left out of the model (allow more taps: the search reaches back a quarter of \
+             them)",
+            found.peak_lag - search_from
         ));
     }
     let onset = search_from + first_tap;

@@ -46,5 +46,5 @@ pub use stimulus::{
 };
 pub use summary::describe_measurement;
 pub use sweep::{deconvolve_sweep, exponential_sweep, sweep_frequency_at, sweep_inverse_filter};
-pub use trust::refusal_reasons;
+pub use trust::{equalized_warning, refusal_reasons};
 pub use workflow::{identify_files, identify_signals, MeasurementOutcome};
