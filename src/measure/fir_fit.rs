@@ -68,6 +68,29 @@ pub fn fit_frames(stimulus_len: usize, response_len: usize, taps: usize) -> usiz
     response_len.min(stimulus_len + taps.saturating_sub(1))
 }
 
+/// The most taps the data allow (at most [`MOST_FIR_TAPS`], at least four frames per tap), or
+/// the refusal of a fixed length beyond it (or of zero taps).
+pub fn check_length(
+    stimulus_len: usize,
+    response_len: usize,
+    length: FirLength,
+) -> Result<usize, MeasureError> {
+    let frames_available = fit_frames(stimulus_len, response_len, MOST_FIR_TAPS);
+    let most = (frames_available / FRAMES_PER_TAP).min(MOST_FIR_TAPS);
+    let (wanted, automatic) = match length {
+        FirLength::Fixed(taps) => (taps, false),
+        FirLength::Automatic { most } => (most, true),
+    };
+    if wanted == 0 || (!automatic && wanted > most) {
+        return Err(MeasureError::FirTooLong {
+            taps: wanted,
+            frames: frames_available,
+            most,
+        });
+    }
+    Ok(most)
+}
+
 /// Fits an FIR model of `response` (aligned so that index 0 is where the stimulus starts to
 /// arrive) to `stimulus`.
 pub fn fit_fir(
@@ -79,15 +102,7 @@ pub fn fit_fir(
         FirLength::Fixed(taps) => (taps, false),
         FirLength::Automatic { most } => (most, true),
     };
-    let frames_available = fit_frames(stimulus.len(), response.len(), MOST_FIR_TAPS);
-    let most = (frames_available / FRAMES_PER_TAP).min(MOST_FIR_TAPS);
-    if wanted == 0 || (!automatic && wanted > most) {
-        return Err(MeasureError::FirTooLong {
-            taps: wanted,
-            frames: frames_available,
-            most,
-        });
-    }
+    let most = check_length(stimulus.len(), response.len(), length)?;
     let taps_max = wanted.min(most).max(1);
     let n_end = fit_frames(stimulus.len(), response.len(), taps_max);
     let mut gram = lagged_gram(stimulus, stimulus, taps_max, taps_max, n_end);

@@ -5,7 +5,9 @@
 use super::band_snr::{band_snr, trusted_range, BandSnr, TrustedRange, TRUST_SNR_DB};
 use super::delay::find_delay;
 use super::error::MeasureError;
-use super::fir_fit::{fit_fir, tap_scatter, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS};
+use super::fir_fit::{
+    check_length, fit_fir, tap_scatter, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS, MOST_FIR_TAPS,
+};
 use super::iir_fit::{filter, fit_iir, IirFit, IirOrders};
 use super::recording_checks::CheckedPair;
 use crate::model::MAX_ORDER;
@@ -153,6 +155,12 @@ fn identify_channel(
     warnings: &mut Vec<String>,
 ) -> Result<ChannelFit, MeasureError> {
     let found = find_delay(stimulus, response, response_name, channel)?;
+    // A length the data cannot carry is refused before any fitting.
+    check_length(
+        stimulus.len(),
+        response.len().saturating_sub(found.peak_lag),
+        settings.fir_length,
+    )?;
     let too_short = |from: usize| MeasureError::TooShort {
         signal: format!("{response_name}, channel {channel},"),
         frames: response.len(),
@@ -185,7 +193,7 @@ fn identify_channel(
         stimulus,
         &response[search_from..],
         FirLength::Automatic {
-            most: found.peak_lag - search_from + longest.max(64),
+            most: (found.peak_lag - search_from + longest.max(64)).min(MOST_FIR_TAPS),
         },
     )?;
     let first_tap = onset_of(&first_look, stimulus);
