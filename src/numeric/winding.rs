@@ -29,6 +29,8 @@ const MIN_GRID: usize = 1 << 10;
 const MAX_GRID: usize = 1 << 21;
 /// An interval is split at most this many times before the count is refused.
 const MAX_SPLITS: u32 = 40;
+/// The grid is not doubled past this many points per coefficient.
+const MAX_POINTS_PER_COEFFICIENT: usize = 1024;
 /// The grid is doubled while more than this fraction of its intervals fail the test.
 const DOUBLE_WHEN_FAILING: f64 = 1.0 / 64.0;
 
@@ -123,7 +125,10 @@ pub fn count_inside(b: &[f64], radius: f64) -> Result<WindingCount, WindingError
             }
         }
         smallest = smallest.min(grid.value[half].norm());
-        if failing.len() as f64 > DOUBLE_WHEN_FAILING * half as f64 && size < MAX_GRID {
+        // Doubling pays for long polynomials (each direct evaluation costs the order); a short
+        // one is refined interval by interval beyond 1024 points per coefficient.
+        let doubling_pays = size < MAX_GRID && size < MAX_POINTS_PER_COEFFICIENT * (n + 1);
+        if failing.len() as f64 > DOUBLE_WHEN_FAILING * half as f64 && doubling_pays {
             size *= 2;
             continue;
         }
