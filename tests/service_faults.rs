@@ -373,3 +373,33 @@ fn the_example_unit_runs_unprivileged_and_hardened() {
         assert_eq!(value(key).as_deref(), Some(expected), "{key}");
     }
 }
+
+// Source: systemd.exec(5) — LimitRTPRIO= and LimitMEMLOCK= set RLIMIT_RTPRIO and
+// RLIMIT_MEMLOCK, and RestrictRealtime=yes refuses real-time scheduling whatever the limit;
+// sched(7) — an unprivileged thread may take SCHED_FIFO up to RLIMIT_RTPRIO.
+#[test]
+fn both_example_units_allow_the_default_callback_priority_and_locked_memory() {
+    for name in ["redress.service", "redress-user.service"] {
+        let unit = std::fs::read_to_string(
+            Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("configs/systemd")
+                .join(name),
+        )
+        .unwrap();
+        let value = |key: &str| {
+            unit.lines()
+                .map(str::trim)
+                .find_map(|l| l.strip_prefix(&format!("{key}=")))
+                .map(str::to_string)
+        };
+        let rtprio: u8 = value("LimitRTPRIO")
+            .and_then(|v| v.parse().ok())
+            .unwrap_or_else(|| panic!("{name}: LimitRTPRIO= missing or not a number"));
+        assert!(
+            rtprio >= redress::model::DEFAULT_CALLBACK_PRIORITY,
+            "{name}: LimitRTPRIO={rtprio}"
+        );
+        assert_eq!(value("LimitMEMLOCK").as_deref(), Some("infinity"), "{name}");
+        assert_ne!(value("RestrictRealtime").as_deref(), Some("yes"), "{name}");
+    }
+}

@@ -58,6 +58,92 @@ fn start_wrapped(dir: &Path, config: &Path, wrapper: &[&str]) -> Service {
     Service { child, socket, log }
 }
 
+/// The wrapper that runs the service as `nobody` (from root), after giving `nobody` the test
+/// folder: the service must reach its config and create its socket there.
+fn as_nobody(dir: &Path) -> [&'static str; 4] {
+    let ok = Command::new("chown")
+        .args(["-R", "nobody"])
+        .arg(dir)
+        .status()
+        .is_ok_and(|s| s.success());
+    assert!(ok, "chown nobody failed");
+    [
+        "setpriv",
+        "--reuid=nobody",
+        "--regid=nogroup",
+        "--clear-groups",
+    ]
+}
+
+/// `Key=value` of the example system unit.
+fn unit_value(key: &str) -> String {
+    let unit = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("configs/systemd/redress.service"),
+    )
+    .expect("the example unit");
+    unit.lines()
+        .map(str::trim)
+        .find_map(|l| l.strip_prefix(&format!("{key}=")))
+        .unwrap_or_else(|| panic!("no {key}= in the example unit"))
+        .to_string()
+}
+
+// Source: sched(7), getrlimit(2), mlockall(2) — an unprivileged process may take SCHED_FIFO up
+// to RLIMIT_RTPRIO and lock memory up to RLIMIT_MEMLOCK (all of it when unlimited); systemd.exec(5)
+// — LimitRTPRIO= and LimitMEMLOCK= set those limits. So an ordinary user given the example
+// unit's limits must get the default priority and every page locked, with no warning.
+//
+// Ignored by default: setting the unit's limits needs what systemd has when it starts a unit,
+// CAP_SYS_RESOURCE (or hard limits already that high), and a container usually withholds it
+// (this one does: root's hard RLIMIT_RTPRIO is 0 and cannot be raised). Run it where the
+// limits can be set: `cargo test --test service_realtime -- --ignored`.
+#[test]
+#[ignore = "needs CAP_SYS_RESOURCE or hard limits at the unit's values"]
+fn an_ordinary_user_with_the_units_limits_gets_real_time_and_locked_memory() {
+    let rtprio = unit_value("LimitRTPRIO");
+    let memlock = unit_value("LimitMEMLOCK").replace("infinity", "unlimited");
+    let dir = temp_dir("svc-rt-unit-limits");
+    let config = write_config(&dir, "");
+    let rtprio_arg = format!("--rtprio={rtprio}:{rtprio}");
+    let memlock_arg = format!("--memlock={memlock}:{memlock}");
+    let can_set = Command::new("prlimit")
+        .args([&rtprio_arg, &memlock_arg, "--", "true"])
+        .status()
+        .is_ok_and(|s| s.success());
+    assert!(
+        can_set,
+        "this machine cannot set {rtprio_arg} {memlock_arg} (no CAP_SYS_RESOURCE): the test \
+         cannot make the unit's conditions here"
+    );
+    let root = effective_uid() == 0;
+    // Raising a hard limit needs root: as root the limits are set first, then the user
+    // dropped to `nobody`; otherwise this user's own hard limits must already allow them.
+    let mut wrapper = vec!["prlimit", &rtprio_arg, &memlock_arg, "--"];
+    if root {
+        wrapper.extend(as_nobody(&dir));
+    }
+    let mut svc = start_wrapped(&dir, &config, &wrapper);
+    let doc = svc.wait_for("the audio thread at the unit's limits", |d| {
+        d.pointer("/audio/realtime/threads/0/policy")
+            .is_some_and(|p| !p.is_null())
+            && d.pointer("/engine/frames").and_then(Value::as_u64) >= Some(4_800)
+    });
+    let t = thread(&doc);
+    assert_eq!(t["asked_priority"], 70, "{doc}");
+    assert_eq!(t["policy"], "fifo", "{doc}");
+    assert_eq!(t["priority"], 70, "{doc}");
+    assert!(t["refused"].is_null(), "{doc}");
+    assert_eq!(
+        doc.pointer("/audio/realtime/memory/locked"),
+        Some(&Value::from("current_and_future")),
+        "{doc}"
+    );
+    svc.signal("TERM");
+    assert_eq!(svc.wait_exit().code(), Some(0), "{}", svc.log_text());
+    let log = svc.log_text();
+    assert!(!log.contains("warning: real-time"), "{log}");
+}
+
 // Source: sched(7) — a thread may take SCHED_FIFO when it has CAP_SYS_NICE (root) or when
 // RLIMIT_RTPRIO allows the priority; pthread_getschedparam reports what it then runs at.
 #[test]
@@ -113,23 +199,9 @@ fn an_unprivileged_user_without_rtprio_is_warned_and_the_audio_runs_on() {
     let dir = temp_dir("svc-rt-refused");
     let config = write_config(&dir, "");
     let root = effective_uid() == 0;
-    if root {
-        // The service runs as `nobody`: it must reach its config and create its socket.
-        let ok = Command::new("chown")
-            .args(["-R", "nobody"])
-            .arg(&dir)
-            .status()
-            .is_ok_and(|s| s.success());
-        assert!(ok, "chown nobody failed");
-    }
     let mut wrapper = vec![];
     if root {
-        wrapper.extend([
-            "setpriv",
-            "--reuid=nobody",
-            "--regid=nogroup",
-            "--clear-groups",
-        ]);
+        wrapper.extend(as_nobody(&dir));
     }
     wrapper.extend(["prlimit", "--rtprio=0:0", "--"]);
     let mut svc = start_wrapped(&dir, &config, &wrapper);
