@@ -55,6 +55,8 @@ struct Files {
     newer_format: PathBuf,
     mono_16k: PathBuf,
     unknown_device: PathBuf,
+    jack_host: PathBuf,
+    two_clocks: PathBuf,
     typographic_minus: PathBuf,
 }
 
@@ -134,6 +136,21 @@ fn files() -> Files {
          difference_equation = { b = [1.0, -0.5], a = [1.0] }\n\n[audio]\n\
          input_device = \"no such rack amp anywhere\"\n",
     );
+    let with_audio = |name: &str, audio: &str| {
+        write_file(
+            &d,
+            name,
+            &format!(
+                "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
+                 difference_equation = {{ b = [1.0, -0.5], a = [1.0] }}\n\n[audio]\n{audio}"
+            ),
+        )
+    };
+    let jack_host = with_audio("studio_graph.toml", "host = \"jack\"\n");
+    let two_clocks = with_audio(
+        "two_boxes.toml",
+        "clocks = \"separate\"\ninput_device = \"null\"\noutput_device = \"null\"\n",
+    );
     let typographic_minus = write_file(
         &d,
         "pasted.toml",
@@ -147,6 +164,8 @@ fn files() -> Files {
         newer_format,
         mono_16k,
         unknown_device,
+        jack_host,
+        two_clocks,
         small,
         _dir: dir,
         dir: d,
@@ -621,6 +640,33 @@ fn catalogue(f: &Files) -> Vec<Case> {
             ],
             1,
             &["no capture device matches", "redress devices"],
+        ),
+        // Not yet built: refused by name rather than run on ALSA under another host's name.
+        case(
+            "a host this build does not have",
+            &[
+                "run",
+                &p(&f.jack_host),
+                "--socket",
+                &p(&f.dir.join("r6/s.sock")),
+            ],
+            1,
+            &[
+                "`host` = jack",
+                "ALSA devices only",
+                "help: set host = \"alsa\"",
+            ],
+        ),
+        case(
+            "two clocks, which this build does not steer",
+            &[
+                "run",
+                &p(&f.two_clocks),
+                "--socket",
+                &p(&f.dir.join("r7/s.sock")),
+            ],
+            1,
+            &["`clocks` = separate", "not written yet", "help:"],
         ),
     ]
 }

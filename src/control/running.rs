@@ -99,6 +99,8 @@ impl RunningAudio {
                     buffer_frames: link.runtime.audio.buffer_frames,
                     callback_priority: link.runtime.audio.callback_priority,
                     lock_memory: link.runtime.audio.lock_memory,
+                    host: link.runtime.audio.host,
+                    clocks: link.runtime.audio.clocks,
                 };
                 let streams = start_duplex(&request, engine, control.stats())
                     .map_err(|e| ServiceError::Audio(e.to_string()))?;

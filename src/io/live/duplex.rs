@@ -17,7 +17,7 @@ use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
 use super::stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};
 use crate::engine::{Engine, EngineStats};
-use crate::model::{MAX_CHANNELS, SAMPLE_RATE_RANGE};
+use crate::model::{AudioHost, Clocks, MAX_CHANNELS, SAMPLE_RATE_RANGE};
 
 /// Which devices to open and how.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -36,6 +36,10 @@ pub struct DeviceRequest {
     pub callback_priority: u8,
     /// Lock the process's memory before the streams start, where the limits allow.
     pub lock_memory: bool,
+    /// The audio system to open the devices on (only ALSA is built so far).
+    pub host: AudioHost,
+    /// Whether capture and playback share a sample clock (only a shared one is run so far).
+    pub clocks: Clocks,
 }
 
 impl Default for DeviceRequest {
@@ -48,6 +52,8 @@ impl Default for DeviceRequest {
             buffer_frames: None,
             callback_priority: 0,
             lock_memory: false,
+            host: AudioHost::Alsa,
+            clocks: Clocks::Auto,
         }
     }
 }
@@ -258,6 +264,33 @@ pub fn start_duplex(
 }
 
 fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveError> {
+    // Refused rather than run on ALSA under another name: `status` would report a host the
+    // audio does not go through.
+    if request.host != AudioHost::Alsa {
+        return Err(LiveError::InvalidRequest {
+            field: "host",
+            value: request.host.key().to_string(),
+            why: "this build of redress opens ALSA devices only; its JACK and PipeWire hosts \
+                  are not written yet"
+                .to_string(),
+            help: "set host = \"alsa\" (or leave it out); a JACK or PipeWire server is reached \
+                   through its ALSA plugin: input_device = output_device = \"jack\" or \
+                   \"pipewire\" as `redress devices` lists them"
+                .to_string(),
+        });
+    }
+    if request.clocks == Clocks::Separate {
+        return Err(LiveError::InvalidRequest {
+            field: "clocks",
+            value: "separate".to_string(),
+            why: "drift compensation between two device clocks is not written yet: the ring \
+                  between them would fill or drain and end in under- or overruns"
+                .to_string(),
+            help: "use one device for both directions (one clock), or leave clocks out to run \
+                   two devices as today"
+                .to_string(),
+        });
+    }
     let (lo, hi) = SAMPLE_RATE_RANGE;
     if !(lo..=hi).contains(&f64::from(request.sample_rate)) {
         return Err(LiveError::InvalidRequest {
