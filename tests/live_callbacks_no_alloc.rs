@@ -77,6 +77,15 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
             playback.on_output(&mut out);
         });
     }
+    // The playback side meters what it finds waiting: the prefill plus the period the capture
+    // side has just pushed, every time (common practice: the fill a ring's reader sees).
+    let ring = control.snapshot();
+    let expected = (plan.prefill_frames() + PERIOD) as u64;
+    assert_eq!(ring.ring_fill_frames, Some(expected));
+    assert_eq!(
+        (ring.ring_fill_low_frames, ring.ring_fill_high_frames),
+        (Some(expected), Some(expected))
+    );
     for _ in 0..50 {
         assert_no_alloc(|| {
             capture.on_input(&block_i16);

@@ -254,6 +254,18 @@ pub fn render_status_text(doc: &Value) -> String {
         u(&engine["output_underruns"]),
         u(&audio["stream_errors"])
     ));
+    if let Some(fill) = engine["ring_fill_frames"].as_u64() {
+        let range = match (
+            engine["ring_fill_low_frames"].as_u64(),
+            engine["ring_fill_high_frames"].as_u64(),
+        ) {
+            (Some(low), Some(high)) => format!(", {low} to {high} over the last quarter second"),
+            _ => String::new(),
+        };
+        out.push_str(&format!(
+            "ring         {fill} frame(s) waiting before the latest playback callback{range}\n"
+        ));
+    }
     out.push_str(&format!(
         "guards       {} clipped sample(s), {} limited, {} instability trip(s) ({} non-finite), \
          fallbacks: {} to last good, {} to bypass{}\n",

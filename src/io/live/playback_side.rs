@@ -63,6 +63,8 @@ impl PlaybackSide {
     /// counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks nothing.
     pub fn on_output<T: DeviceSample>(&mut self, data: &mut [T]) {
         self.scheduling.on_callback();
+        self.stats
+            .record_ring_fill((self.ring.occupied_len() / self.channels) as u64);
         let mut silence = 0usize;
         let mut taken = 0usize;
         for chunk in data.chunks_mut(self.scratch.len()) {
