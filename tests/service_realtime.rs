@@ -13,7 +13,7 @@ use std::path::Path;
 use std::process::Command;
 
 use serde_json::Value;
-use service_support::{temp_dir, u, Service, LINK_A};
+use service_support::{example_unit_value, temp_dir, u, Service, LINK_A};
 
 fn thread(doc: &Value) -> &Value {
     doc.pointer("/audio/realtime/threads/0")
@@ -77,15 +77,8 @@ fn as_nobody(dir: &Path) -> [&'static str; 4] {
 
 /// `Key=value` of the example system unit.
 fn unit_value(key: &str) -> String {
-    let unit = std::fs::read_to_string(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("configs/systemd/redress.service"),
-    )
-    .expect("the example unit");
-    unit.lines()
-        .map(str::trim)
-        .find_map(|l| l.strip_prefix(&format!("{key}=")))
+    example_unit_value("redress.service", key)
         .unwrap_or_else(|| panic!("no {key}= in the example unit"))
-        .to_string()
 }
 
 // Source: sched(7), getrlimit(2), mlockall(2) — an unprivileged process may take SCHED_FIFO up

@@ -186,3 +186,17 @@ pub fn temp_dir(name: &str) -> PathBuf {
     std::fs::create_dir_all(&dir).expect("temp dir");
     dir
 }
+
+/// The value of `Key=` in the example systemd unit `configs/systemd/NAME`, if it is set.
+pub fn example_unit_value(name: &str, key: &str) -> Option<String> {
+    let unit = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("configs/systemd")
+            .join(name),
+    )
+    .unwrap_or_else(|e| panic!("configs/systemd/{name}: {e}"));
+    unit.lines()
+        .map(str::trim)
+        .find_map(|l| l.strip_prefix(&format!("{key}=")))
+        .map(str::to_string)
+}
