@@ -1,5 +1,6 @@
 //! The live callbacks' real code, called directly without a device: it allocates and frees
-//! nothing (steady running, f32 and i16 devices, buffers longer than the scratch, a filter swap,
+//! nothing (steady running, f32, i16 and 24-bit devices, buffers longer than the scratch, block
+//! sizes changing mid-stream, a filter swap,
 //! ring overruns and underruns), it counts what it drops and fills, and it delivers the
 //! engine's output in order behind the silence prefill.
 
@@ -10,7 +11,7 @@ use common::{echo_line, inverse_set, resonant_line, sine};
 use redress::engine::{engine_pair, EngineSettings};
 use redress::io::live::realtime::ThreadScheduling;
 use redress::io::live::{
-    duplex_sides, DeviceSample, SchedulingRequest, PREFILL_PERIODS, RING_PERIODS,
+    duplex_sides, DeviceSample, SchedulingRequest, TpdfDither, PREFILL_PERIODS, RING_PERIODS,
 };
 use std::sync::atomic::Ordering;
 
@@ -98,6 +99,49 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
         "steady running lost samples"
     );
     assert!(out.iter().any(|v| *v != 0.0) && out_i16.iter().any(|v| *v != 0));
+
+    // A 24-bit device, and a host that changes its block size while running (a graph host
+    // may): 64, 256, 17, 512, 1, … frames per callback, the same on both sides, alternating
+    // f32 and 24-bit buffers. The engine goes on at each new size without allocating or
+    // losing a frame (blocks past the scratch are cut into chunks).
+    let block_i24: Vec<cpal::I24> = to_i16(&block)
+        .iter()
+        .map(|v| cpal::I24::from_f32(v.to_f32()))
+        .collect();
+    let mut out_i24 = vec![<cpal::I24 as DeviceSample>::SILENCE; block_i24.len()];
+    let long_f32 = sine(2 * PERIOD, CHANNELS, 300.0, 0.2, 0);
+    let mut out_long_f32 = vec![0.0f32; long_f32.len()];
+    let long_i24: Vec<cpal::I24> = long_f32.iter().map(|v| cpal::I24::from_f32(*v)).collect();
+    let mut out_long_i24 = vec![<cpal::I24 as DeviceSample>::SILENCE; long_i24.len()];
+    for (i, frames) in [64, 256, 17, 512, 1, 128, 480, 256, 3, 512]
+        .into_iter()
+        .cycle()
+        .take(40)
+        .enumerate()
+    {
+        let n = frames * CHANNELS;
+        assert_no_alloc(|| {
+            if i % 2 == 0 {
+                capture.on_input(&long_f32[..n]);
+                playback.on_output(&mut out_long_f32[..n]);
+            } else {
+                capture.on_input(&long_i24[..n]);
+                playback.on_output(&mut out_long_i24[..n]);
+            }
+        });
+    }
+    for _ in 0..4 {
+        assert_no_alloc(|| {
+            capture.on_input(&block_i24);
+            playback.on_output(&mut out_i24);
+        });
+    }
+    assert_eq!(
+        (overruns(), underruns()),
+        (0, 0),
+        "a change of block size lost samples"
+    );
+    assert!(out_i24.iter().any(|v| v.inner() != 0));
 
     // A filter swap, sent from the control side outside the no-allocation zone.
     control
@@ -236,20 +280,29 @@ fn sides_deliver_the_engine_output_in_order_behind_the_prefill() {
 
         let prefill = plan.prefill_frames() * CHANNELS;
         assert!(played.len() > prefill + 1000);
-        assert!(
-            played[..prefill].iter().all(|v| *v == 0.0),
-            "prefill is silence"
-        );
-        let body = &played[prefill..];
-        let want: Vec<f32> = if device_is_i16 {
-            // The playback device quantizes the engine's output once more.
-            expected[..body.len()]
+        let mut heard = vec![0.0f32; prefill];
+        heard.extend_from_slice(&expected[..played.len() - prefill]);
+        if device_is_i16 {
+            // The playback device quantizes the engine's output once more, with TPDF dither:
+            // within 1.5 steps of the value (rounding's half step plus the dither's one; the
+            // dither's own statistics are checked in `io::live::dither`), and exactly what one
+            // dither value per played sample, in order, gives.
+            let lsb = 1.0 / 32_768.0;
+            for (got, want) in played.iter().zip(&heard) {
+                assert!((got - want).abs() < 1.5 * lsb, "{got} against {want}");
+            }
+            let mut dither = TpdfDither::default();
+            let want: Vec<f32> = heard
                 .iter()
-                .map(|v| i16::from_f32(*v).to_f32())
-                .collect()
+                .map(|v| i16::from_f32_dithered(*v, &mut dither).to_f32())
+                .collect();
+            assert_eq!(played, want, "i16 device");
         } else {
-            expected[..body.len()].to_vec()
-        };
-        assert_eq!(body, &want[..], "i16 device: {device_is_i16}");
+            assert!(
+                played[..prefill].iter().all(|v| *v == 0.0),
+                "prefill is silence"
+            );
+            assert_eq!(played, heard, "f32 device");
+        }
     }
 }

@@ -377,6 +377,7 @@ fn build_capture(
         DeviceFormat::F32 => build::<f32>(device, choice, capture, errors),
         DeviceFormat::I16 => build::<i16>(device, choice, capture, errors),
         DeviceFormat::I32 => build::<i32>(device, choice, capture, errors),
+        DeviceFormat::I24 => build::<cpal::I24>(device, choice, capture, errors),
     }
 }
 
@@ -412,6 +413,7 @@ fn build_playback(
     match choice.format {
         DeviceFormat::F32 => build::<f32>(device, choice, playback, errors, rate),
         DeviceFormat::I16 => build::<i16>(device, choice, playback, errors, rate),
+        DeviceFormat::I24 => build::<cpal::I24>(device, choice, playback, errors, rate),
         DeviceFormat::I32 => build::<i32>(device, choice, playback, errors, rate),
     }
 }

@@ -15,6 +15,7 @@
 
 mod capture_side;
 mod devices;
+mod dither;
 mod duplex;
 mod error;
 mod memory_lock;
@@ -37,6 +38,7 @@ mod atomics {
 
 pub use capture_side::CaptureSide;
 pub use devices::{list_devices, DEFAULT_DEVICE};
+pub use dither::TpdfDither;
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
 pub use error::{Direction, LiveError};
 pub use memory_lock::{lock_process_memory, MemoryLock};

@@ -6,6 +6,7 @@ use std::sync::Arc;
 use ringbuf::traits::{Consumer, Observer};
 use ringbuf::HeapCons;
 
+use super::dither::TpdfDither;
 use super::playout::PlayoutProgress;
 use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
@@ -21,6 +22,8 @@ pub struct PlaybackSide {
     playout: Arc<PlayoutProgress>,
     /// Asks for real-time scheduling on the first call, and records what the thread got.
     scheduling: CallbackScheduling,
+    /// Dither for 16-bit devices (unused by the wider formats).
+    dither: TpdfDither,
 }
 
 impl PlaybackSide {
@@ -39,6 +42,7 @@ impl PlaybackSide {
             stats,
             playout,
             scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
+            dither: TpdfDither::default(),
         }
     }
 
@@ -59,7 +63,7 @@ impl PlaybackSide {
     }
 
     /// The playback callback: fills `data` (interleaved frames) from the ring, converting to
-    /// the device format. When the ring holds less than asked for, the rest is silence,
+    /// the device format (16-bit samples dithered, see [`super::dither`]). When the ring holds less than asked for, the rest is silence,
     /// counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks nothing.
     pub fn on_output<T: DeviceSample>(&mut self, data: &mut [T]) {
         self.scheduling.on_callback();
@@ -74,7 +78,7 @@ impl PlaybackSide {
             let got = self.ring.pop_slice(&mut self.scratch[..take]);
             taken += got;
             for (d, s) in chunk.iter_mut().zip(&self.scratch[..got]) {
-                *d = T::from_f32(*s);
+                *d = T::from_f32_dithered(*s, &mut self.dither);
             }
             for d in &mut chunk[got..] {
                 *d = T::SILENCE;

@@ -133,8 +133,9 @@ fn why_nothing_fits(offered: &[SupportedStreamConfigRange], rate: u32, channels:
         .map(|r| r.sample_format().to_string())
         .collect();
     format!(
-        "at that rate and channel count it offers only {} samples, and this tool runs f32, i16 \
-         or i32",
+        "at that rate and channel count it offers only {} samples, and this tool runs f32, i32, \
+         i24 (24 bits in 32) or i16; packed 24-bit devices are reached through ALSA's plughw: \
+         device, which converts",
         formats.into_iter().collect::<Vec<_>>().join(", ")
     )
 }
