@@ -306,3 +306,30 @@ fn sides_deliver_the_engine_output_in_order_behind_the_prefill() {
         }
     }
 }
+
+// Source: common practice for real-time audio — the two-clock path (drift loop and resampler,
+// run on the playback thread) allocates nothing once built, also while its ratio moves.
+#[test]
+fn the_drift_loop_and_resampler_allocate_nothing() {
+    use redress::io::live::drift::{DriftLoop, DriftResampler};
+    let mut control = DriftLoop::new(640.0, 48_000.0);
+    let mut resampler = DriftResampler::new(CHANNELS, PERIOD).unwrap();
+    let input = sine(resampler.input_frames_max(), CHANNELS, 440.0, 0.3, 0);
+    let mut out = vec![0.0f32; PERIOD * CHANNELS];
+    // No reset: the other tests of this binary run beside this one and keep their own count.
+    let before = violation_count();
+    for i in 0..200 {
+        assert_no_alloc(|| {
+            let ratio = control.update(600.0 + f64::from(i % 80), PERIOD as f64 / 48_000.0);
+            resampler.set_ratio(ratio);
+            let need = resampler.input_frames_next() * CHANNELS;
+            assert!(resampler.process(&input[..need], &mut out));
+        });
+    }
+    assert_eq!(
+        violation_count(),
+        before,
+        "the drift path allocated or freed"
+    );
+    assert!(out.iter().any(|v| *v != 0.0));
+}

@@ -16,6 +16,7 @@
 mod capture_side;
 mod devices;
 mod dither;
+pub mod drift;
 mod duplex;
 mod error;
 mod memory_lock;
