@@ -56,7 +56,6 @@ struct Files {
     mono_16k: PathBuf,
     unknown_device: PathBuf,
     jack_host: PathBuf,
-    two_clocks: PathBuf,
     typographic_minus: PathBuf,
 }
 
@@ -147,10 +146,6 @@ fn files() -> Files {
         )
     };
     let jack_host = with_audio("studio_graph.toml", "host = \"jack\"\n");
-    let two_clocks = with_audio(
-        "two_boxes.toml",
-        "clocks = \"separate\"\ninput_device = \"null\"\noutput_device = \"null\"\n",
-    );
     let typographic_minus = write_file(
         &d,
         "pasted.toml",
@@ -165,7 +160,6 @@ fn files() -> Files {
         mono_16k,
         unknown_device,
         jack_host,
-        two_clocks,
         small,
         _dir: dir,
         dir: d,
@@ -656,17 +650,6 @@ fn catalogue(f: &Files) -> Vec<Case> {
                 "ALSA devices only",
                 "help: set host = \"alsa\"",
             ],
-        ),
-        case(
-            "two clocks, which this build does not steer",
-            &[
-                "run",
-                &p(&f.two_clocks),
-                "--socket",
-                &p(&f.dir.join("r7/s.sock")),
-            ],
-            1,
-            &["`clocks` = separate", "not written yet", "help:"],
         ),
     ]
 }

@@ -155,6 +155,7 @@ pub fn bench_link(
     let ring = RingPlan {
         period_frames: block_frames,
         channels: link.channel_count,
+        two_clocks: false,
     };
     let max_latency = channels
         .iter()

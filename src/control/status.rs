@@ -254,6 +254,12 @@ pub fn render_status_text(doc: &Value) -> String {
         u(&engine["output_underruns"]),
         u(&audio["stream_errors"])
     ));
+    if let Some(ppm) = engine["drift_ppm"].as_f64() {
+        out.push_str(&format!(
+            "clocks       two: playback runs {ppm:+.1} ppm against capture (estimated); the \
+             output is resampled to hold the ring\n"
+        ));
+    }
     if let Some(fill) = engine["ring_fill_frames"].as_u64() {
         let range = match (
             engine["ring_fill_low_frames"].as_u64(),

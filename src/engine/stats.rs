@@ -14,6 +14,9 @@ pub const TIME_BUCKETS: usize = 64;
 
 /// [`EngineStats::ring_fill`] and `ring_fill_low` before any pull was seen.
 const NO_FILL: u64 = u64::MAX;
+/// [`EngineStats::drift_ppm`] while nothing is resampled (the bits of no f64 the loop makes:
+/// they are a NaN).
+const NO_DRIFT: u64 = u64::MAX;
 
 #[derive(Debug)]
 pub struct EngineStats {
@@ -51,6 +54,9 @@ pub struct EngineStats {
     pub ring_fill: AtomicU64,
     pub ring_fill_low: AtomicU64,
     pub ring_fill_high: AtomicU64,
+    /// The two-clock loop's drift estimate, ppm, as f64 bits (`NO_DRIFT`: one clock, nothing
+    /// resampled).
+    pub drift_ppm: AtomicU64,
     /// Per-channel peak |x| and |y| since the control thread last read them (f32 bits; for
     /// non-negative floats the bit patterns order like the values, so fetch_max works).
     pub input_peak: [AtomicU32; MAX_CHANNELS],
@@ -84,6 +90,7 @@ impl Default for EngineStats {
             ring_fill: AtomicU64::new(NO_FILL),
             ring_fill_low: AtomicU64::new(NO_FILL),
             ring_fill_high: AtomicU64::new(0),
+            drift_ppm: AtomicU64::new(NO_DRIFT),
             input_peak: std::array::from_fn(|_| AtomicU32::new(0)),
             output_peak: std::array::from_fn(|_| AtomicU32::new(0)),
             callback_time: std::array::from_fn(|_| AtomicU64::new(0)),
@@ -117,6 +124,9 @@ pub struct StatsSnapshot {
     pub ring_fill_frames: Option<u64>,
     pub ring_fill_low_frames: Option<u64>,
     pub ring_fill_high_frames: Option<u64>,
+    /// Estimated clock difference, ppm (playback faster than capture when positive); `None`
+    /// when both directions share one clock and nothing is resampled.
+    pub drift_ppm: Option<f64>,
     /// Peak levels since the previous snapshot, dBFS, per channel.
     pub input_peak_dbfs: Vec<f64>,
     pub output_peak_dbfs: Vec<f64>,
@@ -145,6 +155,12 @@ impl EngineStats {
         self.ring_fill.store(frames, Ordering::Relaxed);
         self.ring_fill_low.fetch_min(frames, Ordering::Relaxed);
         self.ring_fill_high.fetch_max(frames, Ordering::Relaxed);
+    }
+
+    /// Publishes the two-clock loop's drift estimate (ppm).
+    #[inline]
+    pub fn record_drift_ppm(&self, ppm: f64) {
+        self.drift_ppm.store(ppm.to_bits(), Ordering::Relaxed);
     }
 
     /// Raises the per-channel peak meters.
@@ -204,6 +220,10 @@ impl EngineStats {
             ring_fill_high_frames: match self.ring_fill_high.swap(0, Ordering::Relaxed) {
                 0 if low_unseen => None,
                 high => Some(high),
+            },
+            drift_ppm: match self.drift_ppm.load(Ordering::Relaxed) {
+                NO_DRIFT => None,
+                bits => Some(f64::from_bits(bits)).filter(|p| p.is_finite()),
             },
             input_peak_dbfs: (0..channels)
                 .map(|c| dbfs(self.input_peak[c].swap(0, Ordering::Relaxed)))

@@ -71,7 +71,8 @@ impl AudioHost {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Clocks {
-    /// Shared when both directions use one device (or one server graph), separate otherwise.
+    /// Run as one clock (nothing resampled). Two device names do not prove two crystals (a
+    /// card's `hw:` and `plughw:` devices share one), so two clocks are asked for by name.
     Auto,
     /// One clock: nothing is resampled, the output is bit-exact.
     Shared,

@@ -6,6 +6,7 @@ use std::sync::Arc;
 use ringbuf::traits::{Observer, Producer};
 use ringbuf::HeapProd;
 
+use super::drift_stage::PushClock;
 use super::playout::PlayoutProgress;
 use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
@@ -25,6 +26,8 @@ pub struct CaptureSide {
     playout: Arc<PlayoutProgress>,
     /// Asks for real-time scheduling on the first call, and records what the thread got.
     scheduling: CallbackScheduling,
+    /// Stamped after every push when the playback side resamples for two clocks.
+    push_clock: Option<Arc<PushClock>>,
 }
 
 impl CaptureSide {
@@ -46,7 +49,13 @@ impl CaptureSide {
             stats,
             playout,
             scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
+            push_clock: None,
         }
+    }
+
+    /// Stamps `clock` after every push (two clocks: the playback side's loop reads it).
+    pub(super) fn set_push_clock(&mut self, clock: Arc<PushClock>) {
+        self.push_clock = Some(clock);
     }
 
     /// What this callback's thread asks for on its first call (nothing, by default); returns
@@ -79,6 +88,9 @@ impl CaptureSide {
             let room = self.ring.vacant_len();
             let fits = n.min(room - room % self.channels);
             let pushed = self.ring.push_slice(&self.output[..fits]);
+            if let Some(clock) = &self.push_clock {
+                clock.mark_push();
+            }
             self.playout
                 .record_pushed((pushed / self.channels) as u64, self.engine.fade_out_done());
             let dropped = n - pushed;

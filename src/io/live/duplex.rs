@@ -12,7 +12,7 @@ use super::memory_lock::lock_process_memory;
 use super::playback_side::PlaybackSide;
 use super::playout::PlayoutProgress;
 use super::realtime::{request_for_priority, SchedulingWatch};
-use super::ring::{duplex_sides, RingPlan};
+use super::ring::{duplex_sides, duplex_sides_two_clocks, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
 use super::stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};
@@ -38,7 +38,7 @@ pub struct DeviceRequest {
     pub lock_memory: bool,
     /// The audio system to open the devices on (only ALSA is built so far).
     pub host: AudioHost,
-    /// Whether capture and playback share a sample clock (only a shared one is run so far).
+    /// Whether capture and playback share a sample clock; two clocks are resampled.
     pub clocks: Clocks,
 }
 
@@ -94,7 +94,7 @@ impl fmt::Display for DuplexConfig {
             f,
             "capture `{}` ({}, {}-frame period) → playback `{}` ({}, {}-frame period), \
              {} channel(s) at {} Hz; ring {} frames with {} frames of silence up front \
-             ({:.1} ms of added buffering latency)",
+             ({:.1} ms of added buffering latency){}",
             self.input_device,
             self.input_format,
             self.input_period_frames,
@@ -106,6 +106,10 @@ impl fmt::Display for DuplexConfig {
             self.ring.capacity_frames(),
             self.ring.prefill_frames(),
             1000.0 * self.ring_latency_seconds(),
+            match self.ring.two_clocks {
+                true => "; two clocks: playback resampled to hold the ring",
+                false => "",
+            },
         )
     }
 }
@@ -213,7 +217,21 @@ pub fn start_duplex(
     let output_choice = choose_for(&output_device, &output_label, Direction::Playback, request)?;
 
     let period = input_choice.period_frames.max(output_choice.period_frames) as usize;
-    let (mut capture, mut playback, ring) = duplex_sides(engine, stats, period);
+    let (mut capture, mut playback, ring) = match request.clocks {
+        // Two crystals: the playback side resamples by the drift loop's ratio.
+        Clocks::Separate => {
+            duplex_sides_two_clocks(engine, stats, period, f64::from(request.sample_rate)).map_err(
+                |e| LiveError::InvalidRequest {
+                    field: "clocks",
+                    value: "separate".to_string(),
+                    why: e.to_string(),
+                    help: "leave clocks out (one clock) while this is looked into".to_string(),
+                },
+            )?
+        }
+        // One clock (one device, or devices that share one): nothing resampled, bit-exact.
+        Clocks::Auto | Clocks::Shared => duplex_sides(engine, stats, period),
+    };
     let playout = capture.playout();
     // Before the streams start: with the future pages locked, their threads' stacks are too.
     let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
@@ -276,18 +294,6 @@ fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveErr
             help: "set host = \"alsa\" (or leave it out); a JACK or PipeWire server is reached \
                    through its ALSA plugin: input_device = output_device = \"jack\" or \
                    \"pipewire\" as `redress devices` lists them"
-                .to_string(),
-        });
-    }
-    if request.clocks == Clocks::Separate {
-        return Err(LiveError::InvalidRequest {
-            field: "clocks",
-            value: "separate".to_string(),
-            why: "drift compensation between two device clocks is not written yet: the ring \
-                  between them would fill or drain and end in under- or overruns"
-                .to_string(),
-            help: "use one device for both directions (one clock), or leave clocks out to run \
-                   two devices as today"
                 .to_string(),
         });
     }

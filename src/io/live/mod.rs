@@ -17,6 +17,7 @@ mod capture_side;
 mod devices;
 mod dither;
 pub mod drift;
+mod drift_stage;
 mod duplex;
 mod error;
 mod memory_lock;
@@ -48,7 +49,10 @@ pub use playout::PlayoutProgress;
 pub use realtime::{
     request_for_priority, CallbackScheduling, RealtimeStatus, SchedulingRequest, SchedulingWatch,
 };
-pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
+pub use ring::{
+    duplex_sides, duplex_sides_two_clocks, RingPlan, PREFILL_PERIODS, RING_PERIODS,
+    TWO_CLOCK_TARGET_HALF_PERIODS,
+};
 pub use round_trip::{record_loop, LoopRecording, LoopRequest};
 pub use samples::{DeviceFormat, DeviceSample};
 pub use stream_choice::DEFAULT_PERIOD_FRAMES;

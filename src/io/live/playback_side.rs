@@ -7,6 +7,7 @@ use ringbuf::traits::{Consumer, Observer};
 use ringbuf::HeapCons;
 
 use super::dither::TpdfDither;
+use super::drift_stage::DriftStage;
 use super::playout::PlayoutProgress;
 use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
@@ -24,6 +25,8 @@ pub struct PlaybackSide {
     scheduling: CallbackScheduling,
     /// Dither for 16-bit devices (unused by the wider formats).
     dither: TpdfDither,
+    /// Two clocks: the ring is read through the drift loop's resampler.
+    drift: Option<Box<DriftStage>>,
 }
 
 impl PlaybackSide {
@@ -43,7 +46,13 @@ impl PlaybackSide {
             playout,
             scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
             dither: TpdfDither::default(),
+            drift: None,
         }
+    }
+
+    /// Reads the ring through `stage` from now on (two clocks).
+    pub(super) fn set_drift_stage(&mut self, stage: DriftStage) {
+        self.drift = Some(Box::new(stage));
     }
 
     /// What this callback's thread asks for on its first call (nothing, by default); returns
@@ -63,8 +72,10 @@ impl PlaybackSide {
     }
 
     /// The playback callback: fills `data` (interleaved frames) from the ring, converting to
-    /// the device format (16-bit samples dithered, see [`super::dither`]). When the ring holds less than asked for, the rest is silence,
-    /// counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks nothing.
+    /// the device format (16-bit samples dithered, see [`super::dither`]); with two clocks
+    /// through the drift stage's resampler. When the ring holds less than asked for, the rest is
+    /// silence, counted in `EngineStats::output_underruns` (samples). Allocates nothing, locks
+    /// nothing.
     pub fn on_output<T: DeviceSample>(&mut self, data: &mut [T]) {
         self.scheduling.on_callback();
         self.stats
@@ -73,10 +84,22 @@ impl PlaybackSide {
         let mut taken = 0usize;
         for chunk in data.chunks_mut(self.scratch.len()) {
             let want = chunk.len() - chunk.len() % self.channels;
-            let ready = self.ring.occupied_len();
-            let take = want.min(ready - ready % self.channels);
-            let got = self.ring.pop_slice(&mut self.scratch[..take]);
-            taken += got;
+            let got = match self.drift.as_deref_mut() {
+                None => {
+                    let ready = self.ring.occupied_len();
+                    let take = want.min(ready - ready % self.channels);
+                    let got = self.ring.pop_slice(&mut self.scratch[..take]);
+                    taken += got;
+                    got
+                }
+                // Always a whole chunk: resampled audio, or silence counted below.
+                Some(stage) => {
+                    let filled = stage.fill(&mut self.ring, &mut self.scratch[..want], &self.stats);
+                    taken += filled.taken_frames * self.channels;
+                    silence += filled.underrun_samples;
+                    want
+                }
+            };
             for (d, s) in chunk.iter_mut().zip(&self.scratch[..got]) {
                 *d = T::from_f32_dithered(*s, &mut self.dither);
             }
