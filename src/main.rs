@@ -2,6 +2,7 @@
 
 mod closed_pipe;
 mod exit_codes;
+mod manual;
 mod measure_commands;
 mod number_arg;
 
@@ -224,6 +225,13 @@ enum Command {
     },
     #[command(flatten)]
     Measure(measure_commands::MeasureCommand),
+    /// Write the manual pages and the bash, zsh and fish completions into a folder (used when
+    /// the package is built).
+    #[command(hide = true)]
+    PackageFiles {
+        /// The folder (created when missing).
+        dir: PathBuf,
+    },
 }
 
 /// The command-line definition as the binary uses it (and as the manual and the completions
@@ -321,6 +329,7 @@ fn main() -> ExitCode {
             openmetrics,
             socket,
         } => status(json, openmetrics, socket),
+        Command::PackageFiles { dir } => manual::write_package_files(cli_definition(), &dir),
         Command::Devices { verbose } => devices(verbose),
         Command::Bench {
             config,
