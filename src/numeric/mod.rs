@@ -1,5 +1,6 @@
 //! Arithmetic shared by every stage: polynomials in z⁻¹, their roots, the step-down
-//! (Schur–Cohn) recursion, frequency responses and fractional-octave bands. Nothing here knows about audio or config.
+//! (Schur–Cohn) recursion, frequency responses and fractional-octave bands. Nothing here knows
+//! about audio or config.
 
 pub mod fractional_octave;
 pub mod homomorphic;
