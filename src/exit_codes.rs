@@ -134,7 +134,8 @@ pub const IDENTIFY: &str = concat!(
     "  1    a file could not be read or written, or the recording cannot be measured against \
      the stimulus\n",
     "  2    the command line or a model setting is invalid\n",
-    "  3    the fitted link has no runnable inverse\n"
+    "  3    the measurement gives no model fit to equalize with (no runnable inverse, no band \
+     over 20 dB SNR, or an inverse that would make a noisy measurement worse); none is written\n"
 );
 
 pub const PLOT: &str = concat!(

@@ -7,10 +7,11 @@ use clap::{Subcommand, ValueEnum};
 
 use redress::io::{check_output_folder, write_wav, WavFormat};
 use redress::measure::{
-    describe_measurement, generate_stimulus, identify_files, simulate_recording_file, FirLength,
-    IdentifySettings, IirOrders, MeasureError, RecordingSimulation, StimulusKind, StimulusSpec,
-    DEFAULT_FADE_MS, DEFAULT_LEVEL_DBFS, DEFAULT_MLS_ORDER, DEFAULT_MOST_FIR_TAPS,
-    DEFAULT_SILENCE_SECONDS, DEFAULT_START_HZ, DEFAULT_SWEEP_SECONDS,
+    describe_measurement, equalized_warning, generate_stimulus, identify_files, refusal_reasons,
+    simulate_recording_file, FirLength, IdentifySettings, IirOrders, MeasureError,
+    RecordingSimulation, StimulusKind, StimulusSpec, DEFAULT_FADE_MS, DEFAULT_LEVEL_DBFS,
+    DEFAULT_MLS_ORDER, DEFAULT_MOST_FIR_TAPS, DEFAULT_SILENCE_SECONDS, DEFAULT_START_HZ,
+    DEFAULT_SWEEP_SECONDS,
 };
 use redress::model::config::load_link;
 use redress::pipeline::LinkPlan;
@@ -412,6 +413,22 @@ fn identify(
         Ok(o) => o,
         Err(e) => return fail(&e),
     };
+    let refused = refusal_reasons(&outcome);
+    if !refused.is_empty() {
+        print!("{}", describe_measurement(&outcome));
+        eprintln!(
+            "error: the measurement gives no model fit to equalize with; {} was not written:",
+            output.display()
+        );
+        for reason in &refused {
+            eprintln!("  - {reason}");
+        }
+        eprintln!(
+            "  help: raise the stimulus level (carefully) or lengthen the sweep for more SNR, \
+             then measure again"
+        );
+        return exit::NOT_RUNNABLE;
+    }
     if let Err(e) = std::fs::write(output, &outcome.config_text) {
         eprintln!(
             "error: {}: the fitted config could not be written: {}\n  help: check that you may \
@@ -423,6 +440,9 @@ fn identify(
     }
     let summary = describe_measurement(&outcome);
     print!("{summary}");
+    if let Some(warning) = equalized_warning(&outcome) {
+        println!("  warning: {warning}");
+    }
     println!("fitted config: {}", output.display());
     if let Some(dir) = report {
         match write_measurement_report(&outcome, dir, &summary) {

@@ -81,7 +81,7 @@ const CATALOGUE: &[Case] = &[
     case("empty_numerator", EmptyList, 8, Some("path[0].difference_equation.b"), "no coefficients"),
     case("all_zero_numerator", AllZero, 8, Some("path[0].difference_equation.b"), "every coefficient of b is zero"),
     case("denominator_leading_zero", LeadingZero, 11, Some("path[0].difference_equation.a"), "a[0] is zero"),
-    case("numerator_too_long", TooLong, 8, Some("path[0].difference_equation.b"), "1026 coefficients"),
+    case("numerator_too_long", TooLong, 8, Some("path[0].difference_equation.b"), "4098 coefficients"),
     // Zeros and poles.
     case("missing_conjugate", MissingConjugate, 10, Some("path[0].roots.zeros[1]"), "conjugates = \"add\""),
     case("conjugate_near_miss", MissingConjugate, 10, Some("path[0].roots.zeros[0]"), "same digits"),
@@ -90,7 +90,7 @@ const CATALOGUE: &[Case] = &[
     case("negative_radius", MalformedComplex, 11, Some("path[0].roots.poles[0].radius"), "negative"),
     case("polar_both_angles", ConflictingKeys, 11, Some("path[0].roots.zeros[0].angle_rad"), "both angle_deg and angle_rad"),
     case("zero_gain", AllZero, 11, Some("path[0].roots.gain"), "gain of 0"),
-    case("too_many_zeros", TooLong, 10, Some("path[0].roots.zeros"), "1025 zeros"),
+    case("too_many_zeros", TooLong, 10, Some("path[0].roots.zeros"), "4097 zeros"),
     case("too_many_conjugates_added", TooLong, 11, Some("path[0].roots.zeros"), "once the missing conjugates are added"),
     // Echoes.
     case("tap_both_delays", ConflictingKeys, 10, Some("path[0].echoes.taps[0].delay_ms"), "both delay_samples and delay_ms"),
@@ -99,14 +99,14 @@ const CATALOGUE: &[Case] = &[
     case("tap_negative_delay_ms", OutOfRange, 10, Some("path[0].echoes.taps[0].delay_ms"), "-1.5 ms"),
     case("tap_rounds_to_no_delay", OutOfRange, 10, Some("path[0].echoes.taps[0].delay_ms"), "under half a sample"),
     case("direct_delay_negative", OutOfRange, 10, Some("path[0].echoes.direct_delay_samples"), "negative delay"),
-    case("echo_delay_too_long", TooLong, 11, Some("path[0].echoes.taps[0].delay_ms"), "1224 samples"),
-    case("echo_delay_huge", TooLong, 11, Some("path[0].echoes.taps[0].delay_samples"), "longest supported is 1024"),
+    case("echo_delay_too_long", TooLong, 11, Some("path[0].echoes.taps[0].delay_ms"), "4344 samples"),
+    case("echo_delay_huge", TooLong, 11, Some("path[0].echoes.taps[0].delay_samples"), "longest supported is 4096"),
     case("echoes_add_to_nothing", AllZero, 9, Some("path[0].echoes"), "no signal"),
     // Sections.
     case("section_a0_zero", LeadingZero, 10, Some("path[0].sections[1]"), "a0 (the fourth number) is zero"),
     case("section_wrong_length", WrongLength, 8, Some("path[0].sections[0]"), "5 numbers, not 6"),
     case("empty_sections", EmptyList, 8, Some("path[0].sections"), "no sections"),
-    case("too_many_sections", TooLong, 8, Some("path[0].sections"), "513 sections"),
+    case("too_many_sections", TooLong, 8, Some("path[0].sections"), "2049 sections"),
     // The inverse policy ([path.inverse]).
     case("inverse_contradictory_fir", ConflictingKeys, 12, Some("path[0].inverse.fir_taps"), "contradict each other"),
     case("inverse_budget_below_one_sample", OutOfRange, 12, Some("path[0].inverse.fir_latency_budget_ms"), "less than one sample"),

@@ -5,7 +5,14 @@
 //! (companion-matrix eigenvalues, polished) and the step-down recursion (every |k| < 1). They
 //! must agree; where they do not (only possible within round-off of the circle) the analysis
 //! takes the cautious reading and records the disagreement for the report.
+//!
+//! Above [`LISTED_ROOTS_MAX_ORDER`] the companion-matrix eigenvalues (O(n³): seconds at order
+//! 1024, minutes at 4096) are not computed. The zeros are then counted, not listed: by the
+//! argument principle on a guarded FFT grid ([`crate::numeric::winding`]) at the radii
+//! 1 ∓ tolerance, cross-checked with the step-down count where its error growth allows
+//! ([`counting`]).
 
+mod counting;
 mod placement;
 
 use serde::Serialize;
@@ -15,6 +22,7 @@ use crate::numeric::poly::leading_zeros;
 use crate::numeric::roots::{find_roots, RootError};
 use crate::numeric::stepdown::{step_down, StepDown};
 
+pub use counting::{count_zeros, ZeroCount, LISTED_ROOTS_MAX_ORDER};
 pub use placement::{place, PlacedRoot, Placement};
 
 /// Everything the later stages and the report need to know about one channel.
@@ -22,10 +30,14 @@ pub use placement::{place, PlacedRoot, Placement};
 pub struct ChannelAnalysis {
     /// Leading zero taps of B: pure transmission delay, which no causal inverse can undo.
     pub bulk_delay: usize,
-    /// Roots of B after the bulk delay is stripped.
+    /// Roots of B after the bulk delay is stripped (empty when not listed: see `zero_count`).
     pub zeros: Vec<PlacedRoot>,
-    /// Roots of A.
+    /// Roots of A (empty when not listed: see `pole_count`).
     pub poles: Vec<PlacedRoot>,
+    /// How many zeros lie inside, on and outside the circle, and how that was decided.
+    pub zero_count: ZeroCount,
+    /// The same for the poles.
+    pub pole_count: ZeroCount,
     /// Every pole strictly inside the unit circle, by both tests.
     pub channel_stable: bool,
     /// Step-down test on B (bulk delay stripped): all |k| < 1 ⇔ all zeros strictly inside.
@@ -105,32 +117,50 @@ pub fn analyse(
         return Err(AnalysisError::NoDenominator);
     }
     let numerator = &channel.b[bulk_delay..];
-    let zero_roots = find_roots(numerator).map_err(|source| AnalysisError::Roots {
-        polynomial: "numerator B(z)",
-        source,
-    })?;
-    let pole_roots = find_roots(&channel.a).map_err(|source| AnalysisError::Roots {
-        polynomial: "denominator A(z)",
-        source,
-    })?;
-    let mut zeros: Vec<PlacedRoot> = zero_roots
-        .iter()
-        .map(|r| place(*r, circle_tolerance))
-        .collect();
-    let mut poles: Vec<PlacedRoot> = pole_roots
-        .iter()
-        .map(|r| place(*r, circle_tolerance))
-        .collect();
+    let listed = |c: &[f64], polynomial: &'static str| -> Result<Vec<PlacedRoot>, AnalysisError> {
+        if c.len() - 1 > LISTED_ROOTS_MAX_ORDER {
+            return Ok(Vec::new());
+        }
+        let roots = find_roots(c).map_err(|source| AnalysisError::Roots { polynomial, source })?;
+        Ok(roots.iter().map(|r| place(*r, circle_tolerance)).collect())
+    };
+    let mut zeros = listed(numerator, "numerator B(z)")?;
+    let mut poles = listed(&channel.a, "denominator A(z)")?;
     // step_down only returns None for an empty input or a zero leading coefficient, both
     // excluded above.
     let zero_steps = step_down(numerator).ok_or(AnalysisError::NoNumerator)?;
     let pole_steps = step_down(&channel.a).ok_or(AnalysisError::NoDenominator)?;
 
     let mut disagreements = Vec::new();
-    reconcile("zeros", &mut zeros, &zero_steps, &mut disagreements);
-    reconcile("poles", &mut poles, &pole_steps, &mut disagreements);
+    if numerator.len() - 1 <= LISTED_ROOTS_MAX_ORDER {
+        reconcile("zeros", &mut zeros, &zero_steps, &mut disagreements);
+    }
+    if channel.a.len() - 1 <= LISTED_ROOTS_MAX_ORDER {
+        reconcile("poles", &mut poles, &pole_steps, &mut disagreements);
+    }
+    let zero_count = count_zeros(
+        "zeros",
+        numerator,
+        &zeros,
+        circle_tolerance,
+        &mut disagreements,
+    );
+    let pole_count = count_zeros(
+        "poles",
+        &channel.a,
+        &poles,
+        circle_tolerance,
+        &mut disagreements,
+    );
 
-    let channel_stable = poles.iter().all(|p| p.placement == Placement::Inside);
+    let channel_stable = if pole_count.listed {
+        poles.iter().all(|p| p.placement == Placement::Inside)
+    } else {
+        pole_count.all_inside() && pole_steps.all_inside()
+    };
+    // Unlisted zeros: the counts decide, the step-down test cautiously overriding.
+    let unlisted_blocked =
+        !(zero_count.listed || zero_count.all_inside() && zero_steps.all_inside());
     let on_circle: Vec<PlacedRoot> = zeros
         .iter()
         .filter(|z| z.placement == Placement::OnCircle)
@@ -141,7 +171,7 @@ pub fn analyse(
         .filter(|z| z.placement == Placement::Outside)
         .copied()
         .collect();
-    let verdict = if on_circle.is_empty() && outside.is_empty() {
+    let verdict = if on_circle.is_empty() && outside.is_empty() && !unlisted_blocked {
         Verdict::Invertible
     } else {
         Verdict::NotInvertible { on_circle, outside }
@@ -150,6 +180,8 @@ pub fn analyse(
         bulk_delay,
         zeros,
         poles,
+        zero_count,
+        pole_count,
         channel_stable,
         zero_steps,
         pole_steps,

@@ -2,6 +2,7 @@ use super::{decay_60db_samples, DesignError, DesignMethod, InverseDesign};
 use crate::analysis::{ChannelAnalysis, Placement, Verdict};
 use crate::model::TransferFunction;
 use crate::numeric::response::peak_magnitude;
+use crate::numeric::winding::largest_zero_radius;
 
 /// The exact inverse G(z) = A(z)/B′(z) of a stable channel whose zeros are all strictly inside
 /// the unit circle. `analysis` must be the analysis of `channel`.
@@ -34,11 +35,16 @@ pub fn design_exact(
         stripped.iter().map(|x| x / lead).collect(),
     );
     let peak = peak_magnitude(&inverse.b, &inverse.a);
-    let largest_pole = analysis
-        .zeros
-        .iter()
-        .map(|z| z.root.radius())
-        .fold(0.0, f64::max);
+    let largest_pole = if analysis.zero_count.listed {
+        analysis
+            .zeros
+            .iter()
+            .map(|z| z.root.radius())
+            .fold(0.0, f64::max)
+    } else {
+        // Not listed (a long channel): bounded from above without roots.
+        largest_zero_radius(stripped, 1e-9).unwrap_or(1.0)
+    };
     let decay = decay_60db_samples(largest_pole, inverse.b.len().max(inverse.a.len()));
     Ok(InverseDesign {
         method: DesignMethod::Exact,
@@ -55,6 +61,7 @@ pub fn design_exact(
         boost_cap: None,
         fir: None,
         unity_scale_db: 0.0,
+        cepstral: None,
     })
 }
 

@@ -22,6 +22,11 @@ pub fn reflect_outside_zeros(
     numerator: &[f64],
     zeros: &[PlacedRoot],
 ) -> Option<(Vec<f64>, Vec<PlacedRoot>)> {
+    // Nothing to reflect: the numerator itself, not its roots multiplied back together (which
+    // only adds their error, large for clustered zeros near the circle).
+    if zeros.iter().all(|z| z.placement != Placement::Outside) {
+        return Some((numerator.to_vec(), Vec::new()));
+    }
     let mut gain = numerator[0];
     let mut moved = Vec::new();
     let mut roots = Vec::new();

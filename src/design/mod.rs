@@ -6,10 +6,12 @@
 //! boost more than the cap, the policy picks a substitute and the design says what it costs.
 
 mod boost_cap;
+mod cepstral_minimum_phase;
 mod decay;
 mod exact;
 mod least_squares_fir;
 mod minimum_phase;
+mod notch_cap;
 mod substitute;
 
 use serde::Serialize;
@@ -18,10 +20,12 @@ use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
+pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, ON_CIRCLE_PULL};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
 pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
+pub use notch_cap::{cap_notches, NotchCap};
 pub use substitute::design_inverse;
 
 /// How an inverse was obtained.
@@ -108,6 +112,9 @@ pub struct InverseDesign {
     pub fir: Option<FirReport>,
     /// Gain applied to hold the cascade at 0 dB at the configured frequency (dB; 0 when none).
     pub unity_scale_db: f64,
+    /// How the homomorphic route went, when the minimum-phase substitute was built without
+    /// roots (long channels).
+    pub cepstral: Option<CepstralReport>,
 }
 
 impl InverseDesign {
@@ -121,9 +128,13 @@ impl InverseDesign {
             ));
         }
         if let Some(ap) = &self.all_pass {
+            let reflected = self
+                .cepstral
+                .as_ref()
+                .map_or(self.reflected_zeros.len(), |c| c.reflected_count);
             parts.push(format!(
                 "phase of {} zero(s) outside the circle: an all-pass with {:.3}–{:.3} ms group delay stays uncorrected",
-                self.reflected_zeros.len(),
+                reflected,
                 ap.group_delay_min_ms,
                 ap.group_delay_max_ms
             ));

@@ -3,6 +3,7 @@
 use num_complex::Complex64;
 
 use super::boost_cap::cap_boost;
+use super::cepstral_minimum_phase::cepstral_inverse;
 use super::least_squares_fir::{search_delay, solve_at_delay};
 use super::minimum_phase::{all_pass_residual, reflect_outside_zeros};
 use super::{
@@ -11,6 +12,7 @@ use super::{
 };
 use crate::analysis::{ChannelAnalysis, Placement};
 use crate::model::{FirDelay, InverseMethod, InversePolicy, TransferFunction};
+use crate::numeric::homomorphic::magnitude_on_grid;
 use crate::numeric::impulse::decayed_impulse_response;
 use crate::numeric::poly::eval_z_inverse;
 use crate::numeric::response::{peak_magnitude, Peak};
@@ -60,11 +62,42 @@ fn minimum_phase_inverse(
             return Ok(exact);
         }
     }
+    let order = channel.b.len() - analysis.bulk_delay - 1;
+    if analysis.zero_count.listed && order <= ROOT_ROUTE_MAX_ORDER {
+        // A root route that fails its own checks hands over to the homomorphic one.
+        if let Ok(design) = root_route(channel, analysis, policy, sample_rate) {
+            return Ok(design);
+        }
+    }
+    cepstral_inverse(channel, analysis, policy, sample_rate)
+}
+
+/// Up to this numerator order the minimum-phase substitute reflects and caps the listed roots
+/// themselves (exact moves, each reported); above it, or when that fails its checks, it takes
+/// the homomorphic route, which multiplies no roots back together.
+pub const ROOT_ROUTE_MAX_ORDER: usize = 64;
+
+/// Largest | |B_min| − |B| | over the grid, relative to max |B|, that the root route's
+/// reflection may leave (it must keep the magnitude). Clustered roots near the circle multiply
+/// back with errors near 1e-8; an expansion that has lost the polynomial is off by far more.
+const REFLECTION_TOLERANCE: f64 = 1e-6;
+
+fn root_route(
+    channel: &TransferFunction,
+    analysis: &ChannelAnalysis,
+    policy: &InversePolicy,
+    sample_rate: f64,
+) -> Result<InverseDesign, DesignError> {
     let numerator = &channel.b[analysis.bulk_delay..];
     let (reflected_b, reflected) =
         reflect_outside_zeros(numerator, &analysis.zeros).ok_or(DesignError::Numerical {
             what: "the reflected zeros do not form real coefficients",
         })?;
+    if !keeps_magnitude(numerator, &reflected_b) {
+        return Err(DesignError::Numerical {
+            what: "the reflected zeros do not keep the channel's magnitude",
+        });
+    }
     let all_pass =
         (!reflected.is_empty()).then(|| all_pass_residual(numerator, &reflected_b, sample_rate));
 
@@ -119,6 +152,7 @@ fn minimum_phase_inverse(
         boost_cap: cap_report,
         fir: None,
         unity_scale_db: 0.0,
+        cepstral: None,
     })
 }
 
@@ -196,6 +230,7 @@ fn fir_inverse(
         boost_cap: None,
         fir: Some(report),
         unity_scale_db: 0.0,
+        cepstral: None,
     })
 }
 
@@ -225,6 +260,20 @@ fn normalise(
     design.peak_boost_db += scale_db;
     design.unity_scale_db = scale_db;
     Ok(design)
+}
+
+/// True when |reflected| equals |original| on a grid of 16 points per coefficient, to
+/// [`REFLECTION_TOLERANCE`] of the largest.
+fn keeps_magnitude(original: &[f64], reflected: &[f64]) -> bool {
+    let size = (16 * original.len()).next_power_of_two().max(1024);
+    let (x, y) = (
+        magnitude_on_grid(original, size),
+        magnitude_on_grid(reflected, size),
+    );
+    let top = x.iter().fold(0.0f64, |m, v| m.max(*v));
+    x.iter()
+        .zip(&y)
+        .all(|(a, b)| (a - b).abs() <= REFLECTION_TOLERANCE * top)
 }
 
 /// A/B scaled so the denominator leads with 1.

@@ -68,6 +68,29 @@ pub fn fit_frames(stimulus_len: usize, response_len: usize, taps: usize) -> usiz
     response_len.min(stimulus_len + taps.saturating_sub(1))
 }
 
+/// The most taps the data allow (at most [`MOST_FIR_TAPS`], at least four frames per tap), or
+/// the refusal of a fixed length beyond it (or of zero taps).
+pub fn check_length(
+    stimulus_len: usize,
+    response_len: usize,
+    length: FirLength,
+) -> Result<usize, MeasureError> {
+    let frames_available = fit_frames(stimulus_len, response_len, MOST_FIR_TAPS);
+    let most = (frames_available / FRAMES_PER_TAP).min(MOST_FIR_TAPS);
+    let (wanted, automatic) = match length {
+        FirLength::Fixed(taps) => (taps, false),
+        FirLength::Automatic { most } => (most, true),
+    };
+    if wanted == 0 || (!automatic && wanted > most) {
+        return Err(MeasureError::FirTooLong {
+            taps: wanted,
+            frames: frames_available,
+            most,
+        });
+    }
+    Ok(most)
+}
+
 /// Fits an FIR model of `response` (aligned so that index 0 is where the stimulus starts to
 /// arrive) to `stimulus`.
 pub fn fit_fir(
@@ -79,15 +102,7 @@ pub fn fit_fir(
         FirLength::Fixed(taps) => (taps, false),
         FirLength::Automatic { most } => (most, true),
     };
-    let frames_available = fit_frames(stimulus.len(), response.len(), MOST_FIR_TAPS);
-    let most = (frames_available / FRAMES_PER_TAP).min(MOST_FIR_TAPS);
-    if wanted == 0 || (!automatic && wanted > most) {
-        return Err(MeasureError::FirTooLong {
-            taps: wanted,
-            frames: frames_available,
-            most,
-        });
-    }
+    let most = check_length(stimulus.len(), response.len(), length)?;
     let taps_max = wanted.min(most).max(1);
     let n_end = fit_frames(stimulus.len(), response.len(), taps_max);
     let mut gram = lagged_gram(stimulus, stimulus, taps_max, taps_max, n_end);
@@ -143,6 +158,47 @@ pub fn fit_fir(
         automatic,
         most_taps: taps_max,
     })
+}
+
+/// Standard deviation of one fitted tap of a `taps`-long model when the residual is white noise
+/// of `noise_variance`.
+///
+/// The Gram matrix R of a long stimulus is nearly Toeplitz, and its eigenvalues are then the
+/// stimulus's power spectrum μ(f) (N times its power per sample, smoothed over the model's
+/// resolution: a Welch average over frames of the model's length). With the fit's diagonal loading λ
+/// the taps' covariance is σ²·(R + λI)⁻¹R(R + λI)⁻¹, whose diagonal is about
+/// σ²·mean_f μ(f)/(μ(f) + λ)² for every tap (common practice). For a white stimulus it is
+/// σ²/Σs², the figure this replaces; a sweep's pink spectrum makes it several times larger.
+pub fn tap_scatter(stimulus: &[f64], taps: usize, noise_variance: f64) -> f64 {
+    // Frames as long as the model: its spectral resolution, over which R's eigenvalues average
+    // the stimulus's spectrum (a finer one would see gaps the model cannot).
+    let frame = taps
+        .max(64)
+        .next_power_of_two()
+        .min(stimulus.len().max(4).next_power_of_two() / 2);
+    let power = super::fft::welch_power(stimulus, frame);
+    let energy: f64 = stimulus.iter().map(|v| v * v).sum();
+    if energy <= 0.0 || power.iter().all(|&p| p == 0.0) {
+        return (noise_variance / energy.max(f64::MIN_POSITIVE)).sqrt();
+    }
+    // Hann frames: E|X(f)|² = Σw²·(power per sample), Σw² = 3·frame/8.
+    let per_sample = 3.0 * frame as f64 / 8.0;
+    let total = stimulus.len() as f64;
+    let load = RIDGE * energy;
+    let eigen = |p: f64| total * p / per_sample;
+    let bins = power.len();
+    let mean = power
+        .iter()
+        .enumerate()
+        .map(|(i, &p)| {
+            let mu = eigen(p);
+            // Both ends of the half spectrum stand for one bin each, the rest for two.
+            let weight = if i == 0 || i == bins - 1 { 1.0 } else { 2.0 };
+            weight * mu / ((mu + load) * (mu + load))
+        })
+        .sum::<f64>()
+        / (2 * (bins - 1)) as f64;
+    (noise_variance * mean).sqrt()
 }
 
 /// Σ (y − (B/A)·s)² over the first `n_end` frames.

@@ -7,16 +7,22 @@ use super::band_snr::{
 };
 use super::delay::find_delay;
 use super::error::MeasureError;
-use super::fir_fit::{fit_fir, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS};
+use super::fir_fit::{
+    check_length, fit_fir, tap_scatter, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS, MOST_FIR_TAPS,
+};
 use super::iir_fit::{filter, fit_iir, IirFit, IirOrders};
 use super::recording_checks::CheckedPair;
 use crate::model::MAX_ORDER;
 
-/// The onset is searched this many frames before the correlation peak: a link's response may
-/// build up before its largest sample (a precursor, or a non-minimum-phase channel).
+/// The onset is searched at least this many frames before the correlation peak (and a quarter
+/// of the longest model, when that is more): a link's response may build up before its
+/// largest sample (a precursor, or a non-minimum-phase channel).
 pub const ONSET_SEARCH_FRAMES: usize = 128;
 /// A tap smaller than this fraction of the largest (−60 dB) does not mark the onset.
 const ONSET_FRACTION: f64 = 1e-3;
+/// Nor does a tap within this many standard deviations of its own noise scatter (a Gaussian
+/// passes 6σ with probability 2·10⁻⁹ per tap, common practice).
+const ONSET_SIGMAS: f64 = 6.0;
 /// Below this measured SNR (dB) the report warns that the model is rough.
 pub const LOW_SNR_DB: f64 = 20.0;
 
@@ -151,6 +157,12 @@ fn identify_channel(
     warnings: &mut Vec<String>,
 ) -> Result<ChannelFit, MeasureError> {
     let found = find_delay(stimulus, response, response_name, channel)?;
+    // A length the data cannot carry is refused before any fitting.
+    check_length(
+        stimulus.len(),
+        response.len().saturating_sub(found.peak_lag),
+        settings.fir_length,
+    )?;
     let too_short = |from: usize| MeasureError::TooShort {
         signal: format!("{response_name}, channel {channel},"),
         frames: response.len(),
@@ -161,19 +173,39 @@ fn identify_channel(
             stimulus.len()
         ),
     };
-    let search_from = found.peak_lag - found.peak_lag.min(ONSET_SEARCH_FRAMES);
+    let longest = match settings.fir_length {
+        FirLength::Fixed(taps) => taps,
+        FirLength::Automatic { most } => most,
+    };
+    // A long response can build up for a good part of its length before the correlation peaks
+    // (a room's strongest arrival is often a cluster of reflections, and a sweep's correlation
+    // weights the low frequencies): search back a quarter of the longest model, at least the
+    // stated minimum.
+    let search_back = ONSET_SEARCH_FRAMES.max(longest / 4);
+    let search_from = found.peak_lag - found.peak_lag.min(search_back);
     if response.len() < search_from + stimulus.len() {
         return Err(too_short(search_from));
     }
+    // The first look must hold the whole response: a model cut short (it once stopped 64 taps
+    // after the peak) cannot express the tail, and least squares spreads what it cannot express
+    // over the taps it has, the leading ones too; with a long stimulus the noise threshold falls
+    // under that leakage and the onset was read up to 128 frames early. So its length is chosen
+    // as the final model's is, with room for the frames searched before the peak.
     let first_look = fit_fir(
         stimulus,
         &response[search_from..],
-        FirLength::Fixed(found.peak_lag - search_from + 64),
+        FirLength::Automatic {
+            most: (found.peak_lag - search_from + longest.max(64)).min(MOST_FIR_TAPS),
+        },
     )?;
     let first_tap = onset_of(&first_look, stimulus);
     if first_tap == 0 && search_from > 0 {
         warnings.push(format!(
-            "{response_name}, channel {channel}: the response is already under way              {ONSET_SEARCH_FRAMES} frames before its largest sample, the farthest the onset is              searched; a longer build-up is left out of the model"
+            "{response_name}, channel {channel}: the response is already under way {} frames \
+             before its correlation peak, the farthest the onset is searched; a longer build-up \
+             is left out of the model (allow more taps: the search reaches back a quarter of \
+             them)",
+            found.peak_lag - search_from
         ));
     }
     let onset = search_from + first_tap;
@@ -273,12 +305,15 @@ fn identify_channel(
 /// The first tap of `fit` that stands clear of both the noise and −60 dB of the largest tap.
 fn onset_of(fit: &FirFit, stimulus: &[f64]) -> usize {
     let peak = fit.taps.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-    let energy: f64 = stimulus.iter().map(|v| v * v).sum();
-    // A tap's estimate scatters by about σ/√(Σs²) (white-stimulus approximation).
-    let tap_noise = (fit.noise_variance() / energy.max(f64::MIN_POSITIVE)).sqrt();
-    let threshold = (ONSET_FRACTION * peak).max(5.0 * tap_noise);
+    // A tap's scatter follows the stimulus's spectrum, not only its energy: a sweep's pink
+    // spectrum leaves its thin top octaves to set it (the white-stimulus figure σ/√(Σs²) was
+    // several times too small, and at 30 dB SNR noise taps passed for the onset).
+    let tap_noise = tap_scatter(stimulus, fit.taps.len(), fit.noise_variance());
+    let threshold = (ONSET_FRACTION * peak).max(ONSET_SIGMAS * tap_noise);
+    // The largest tap is part of the response whatever the threshold says.
+    let largest = fit.taps.iter().position(|v| v.abs() == peak).unwrap_or(0);
     fit.taps
         .iter()
         .position(|v| v.abs() >= threshold)
-        .unwrap_or(0)
+        .map_or(largest, |first| first.min(largest))
 }

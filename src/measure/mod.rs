@@ -26,6 +26,7 @@ mod simulated_recording;
 mod stimulus;
 mod summary;
 mod sweep;
+mod trust;
 mod workflow;
 
 pub use band_snr::{
@@ -50,4 +51,5 @@ pub use stimulus::{
 };
 pub use summary::describe_measurement;
 pub use sweep::{deconvolve_sweep, exponential_sweep, sweep_frequency_at, sweep_inverse_filter};
+pub use trust::{equalized_warning, refusal_reasons};
 pub use workflow::{identify_files, identify_signals, MeasurementOutcome};

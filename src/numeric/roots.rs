@@ -8,6 +8,12 @@
 use nalgebra::DMatrix;
 use num_complex::Complex64;
 
+/// Largest order whose roots the rest of redress asks for. The companion matrix's eigenvalues
+/// cost O(n³) (about a second at this order in a debug build, minutes at 4096), and the roots of
+/// a long polynomial with clustered zeros come out too inexact to multiply back into it; above
+/// this order zeros are counted and bounded without being computed (`numeric::winding`).
+pub const AFFORDABLE_ORDER: usize = 256;
+
 /// A root of a polynomial, with how many times it repeats.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Root {

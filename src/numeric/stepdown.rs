@@ -64,6 +64,54 @@ pub fn step_down(a: &[f64]) -> Option<StepDown> {
     })
 }
 
+/// Zeros strictly inside the unit circle, counted by the step-down recursion carried on past
+/// stages with |k| > 1, and how far its rounding may have grown.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct StepDownCount {
+    pub inside: usize,
+    /// Π 1/|1 − kₘ²|: each stage divides by 1 − kₘ², so rounding grows by at most this factor.
+    pub growth: f64,
+}
+
+/// Counts the zeros of `a` (a[0] ≠ 0) inside the unit circle without finding them.
+///
+/// Aₘ₋₁ = (Aₘ − kₘBₘ)/(1 − kₘ²) loses the root at the origin that Aₘ − kₘBₘ has; on the circle
+/// |Bₘ| = |Aₘ|, so by Rouché's theorem Aₘ − kₘBₘ has Aₘ's zeros inside when |kₘ| < 1 and Bₘ's
+/// (the m − Iₘ reciprocals of Aₘ's outside ones) when |kₘ| > 1. Hence Iₘ = Iₘ₋₁ + 1, or
+/// Iₘ = m − 1 − Iₘ₋₁ (the Schur–Cohn count, common practice). `None` when some |kₘ| = 1 (a zero
+/// on the circle or a pair symmetric about it: the count is undecided) or a value is not finite.
+pub fn count_inside_by_step_down(a: &[f64]) -> Option<StepDownCount> {
+    if a.is_empty() || a[0] == 0.0 {
+        return None;
+    }
+    let n = a.len() - 1;
+    let mut current: Vec<f64> = a.iter().map(|&x| x / a[0]).collect();
+    let mut ks = vec![0.0; n];
+    let mut growth = 1.0f64;
+    for m in (1..=n).rev() {
+        let k = current[m];
+        let denom = 1.0 - k * k;
+        if denom == 0.0 || !denom.is_finite() {
+            return None;
+        }
+        ks[m - 1] = k;
+        growth /= denom.abs();
+        current = (0..m)
+            .map(|i| (current[i] - k * current[m - i]) / denom)
+            .collect();
+    }
+    let mut inside = 0usize;
+    for (index, k) in ks.iter().enumerate() {
+        let m = index + 1;
+        inside = if k.abs() < 1.0 {
+            inside + 1
+        } else {
+            (m - 1).checked_sub(inside)?
+        };
+    }
+    Some(StepDownCount { inside, growth })
+}
+
 /// The step-up recursion: the polynomial (leading 1) whose reflection coefficients are `k`.
 pub fn step_up(k: &[f64]) -> Vec<f64> {
     let mut a = vec![1.0];
@@ -98,6 +146,32 @@ mod tests {
         for (x, y) in back.iter().zip(a) {
             assert!((x - y).abs() < 1e-15);
         }
+    }
+
+    // Source: common practice — polynomials built from known zeros; the count matches how
+    // many were put inside.
+    #[test]
+    fn step_down_counts_zeros_inside() {
+        // (1 − 1.25 z⁻¹)(1 − 0.5 z⁻¹): one inside.
+        let c = count_inside_by_step_down(&[1.0, -1.75, 0.625]).unwrap();
+        assert_eq!(c.inside, 1);
+        // (1 − 2z⁻¹)(1 + 3z⁻¹)(1 − 0.25z⁻¹) = 1 + 0.75z⁻¹ − 6.25z⁻² + 1.5z⁻³: one inside.
+        assert_eq!(
+            count_inside_by_step_down(&[1.0, 0.75, -6.25, 1.5])
+                .unwrap()
+                .inside,
+            1
+        );
+        // All inside, all outside.
+        assert_eq!(
+            count_inside_by_step_down(&[1.0, 13.0 / 24.0, 5.0 / 8.0, 1.0 / 3.0])
+                .unwrap()
+                .inside,
+            3
+        );
+        assert_eq!(count_inside_by_step_down(&[1.0, -3.0]).unwrap().inside, 0);
+        // A zero on the circle: undecided.
+        assert!(count_inside_by_step_down(&[1.0, -1.0]).is_none());
     }
 
     // Source: common practice — a root on or outside the circle makes some |k| ≥ 1.

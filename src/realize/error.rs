@@ -36,6 +36,12 @@ pub enum RealizeError {
         relative_error: f64,
         tolerance: f64,
     },
+    /// The design is too long to factor into sections: its roots are not computed above this
+    /// order (O(n³), and too inexact to multiply back into the polynomial).
+    TooLongForSections { order: usize, most: usize },
+    /// The lattice's reflection coefficients, stepped back up, do not give the denominator:
+    /// the step-down recursion lost too many digits (its rounding grows as Π 1/(1 − k²)).
+    LatticeMismatch { relative_error: f64, tolerance: f64 },
     /// A coefficient of the structure is too large for the run precision (or not finite).
     CoefficientOverflow {
         structure: Structure,
@@ -156,6 +162,28 @@ impl std::fmt::Display for RealizeError {
                  help: use structure {}, or describe the design by its zeros and poles \
                  rather than by expanded coefficients",
                 spelling(Structure::LatticeLadder)
+            ),
+            RealizeError::TooLongForSections { order, most } => write!(
+                f,
+                "cannot factor an order-{order} design into second-order sections: its roots are \
+                 computed only up to order {most} (the eigenvalues cost O(n³), and at this length \
+                 they are too inexact to multiply back into the polynomial)\n  \
+                 help: use structure {}, which takes the reflection coefficients straight from \
+                 the coefficients and stays stable under rounding while every |k| < 1",
+                spelling(Structure::LatticeLadder)
+            ),
+            RealizeError::LatticeMismatch {
+                relative_error,
+                tolerance,
+            } => write!(
+                f,
+                "the lattice's reflection coefficients do not reproduce the denominator: stepped \
+                 back up they differ by {relative_error:.3e} relative to its largest coefficient \
+                 (allowed {tolerance:.0e}); the step-down recursion lost its digits on poles this \
+                 close to the circle\n  \
+                 help: use structure {}, or lower boost_cap_db so the inverse's poles sit \
+                 further inside",
+                spelling(Structure::DirectForm2T)
             ),
             RealizeError::CoefficientOverflow {
                 structure,

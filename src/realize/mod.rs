@@ -348,6 +348,15 @@ fn realize_lattice(
     if !design.stable() {
         return Err(unstable_design(structure, &design));
     }
+    // The step-down's rounding grows as Π 1/(1 − k²); on a long denominator with poles near the
+    // circle the k may then describe another filter (stable, but not this one): check them.
+    let relative_error = sections::relative_difference(&step_up(&k), &a);
+    if relative_error > LATTICE_TOLERANCE {
+        return Err(RealizeError::LatticeMismatch {
+            relative_error,
+            tolerance: LATTICE_TOLERANCE,
+        });
+    }
     // Round k first, then fit the taps to the lattice that will actually run, so the numerator
     // is matched to the rounded denominator's polynomials; then round the taps.
     let k = round_all(&k, precision);
@@ -373,6 +382,9 @@ fn realize_lattice(
         filter: Filter::LatticeLadder(LatticeLadder::new(k, v)),
     })
 }
+
+/// Largest ‖step_up(k) − a‖∞ / ‖a‖∞ accepted from the step-down recursion.
+pub(crate) const LATTICE_TOLERANCE: f64 = 1e-9;
 
 /// The poles of a sparse recursion's denominator `a` (dense, a[0] = 1): by the dominant
 /// leading tap when Σ|aₖ| < 1 (no roots needed), else by the roots and the step-down test of

@@ -6,8 +6,9 @@
 
 use crate::model::CoefficientPrecision;
 use crate::numeric::poly::trim_trailing_zeros;
-use crate::numeric::roots::find_roots;
+use crate::numeric::roots::{find_roots, AFFORDABLE_ORDER};
 use crate::numeric::stepdown::step_down;
+use crate::numeric::winding::largest_zero_radius;
 
 /// A pole with radius at or above `1 − STABILITY_MARGIN` is treated as on the circle: such a
 /// filter would ring for longer than any audio session (10¹² samples), or grow.
@@ -106,6 +107,14 @@ pub(crate) fn max_root_radius(a: &[f64]) -> (f64, Option<String>) {
     let a = trim_trailing_zeros(a);
     if a.len() <= 1 {
         return (0.0, None);
+    }
+    if a.len() - 1 > AFFORDABLE_ORDER {
+        // No roots at this order: the smallest radius proven to hold them all (an upper bound
+        // on the largest, to 1e-12 relative), by the argument principle.
+        return match largest_zero_radius(a, 1e-12) {
+            Ok(radius) => (radius, None),
+            Err(e) => (f64::NAN, Some(e.to_string())),
+        };
     }
     match find_roots(a) {
         Ok(roots) => {

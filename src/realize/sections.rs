@@ -8,7 +8,7 @@
 use num_complex::Complex64;
 
 use crate::numeric::poly::{leading_zeros, multiply};
-use crate::numeric::roots::{expand, find_roots, Root};
+use crate::numeric::roots::{expand, find_roots, Root, AFFORDABLE_ORDER};
 
 use super::deflation::refine_by_deflation;
 use super::normalise::Normalised;
@@ -105,6 +105,13 @@ fn section_order(c: &SectionCoefficients) -> usize {
 pub(crate) fn factor(h: &Normalised) -> Result<(f64, Vec<SectionCoefficients>), RealizeError> {
     let delay = leading_zeros(&h.b);
     let stripped = &h.b[delay..];
+    let order = stripped.len().max(h.a.len()) - 1;
+    if order > AFFORDABLE_ORDER {
+        return Err(RealizeError::TooLongForSections {
+            order,
+            most: AFFORDABLE_ORDER,
+        });
+    }
     let gain = stripped[0];
     let zeros = groups("numerator", stripped)?;
     let poles = groups("denominator", &h.a)?;

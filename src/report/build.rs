@@ -5,11 +5,15 @@ use std::f64::consts::TAU;
 use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
-    AllPassEntry, BlockingZero, BoostCapEntry, Coefficients, FirEntry, InverseEntry, LinkReport,
-    MovedZeroEntry, PartitionedEntry, PathReport, RealizationEntry, RootEntry, SparseEntry,
-    StepDownEntry, StructureRefusalEntry, StructureSwitchEntry, VerdictEntry, SCHEMA_VERSION,
+    AllPassEntry, BlockingZero, BoostCapEntry, CepstralEntry, Coefficients, CountEntry, FirEntry,
+    InverseEntry, LinkReport, MovedZeroEntry, PartitionedEntry, PathReport, RealizationEntry,
+    RootEntry, SparseEntry, StepDownEntry, StructureRefusalEntry, StructureSwitchEntry,
+    VerdictEntry, SCHEMA_VERSION,
 };
-use crate::analysis::{AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict};
+use crate::analysis::{
+    AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict, ZeroCount,
+    LISTED_ROOTS_MAX_ORDER,
+};
 use crate::design::{DesignError, DesignMethod, InverseDesign};
 use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
 use crate::pipeline::{LinkPlan, StructureRefusal, StructureSwitch};
@@ -195,6 +199,8 @@ pub fn path_report(
         analysis_error,
         zeros,
         poles,
+        zero_count: analysis.as_ref().ok().map(|a| count_entry(&a.zero_count)),
+        pole_count: analysis.as_ref().ok().map(|a| count_entry(&a.pole_count)),
         channel_stable,
         step_down,
         verdict: verdict(analysis, sample_rate),
@@ -230,6 +236,38 @@ fn coefficients(tf: &TransferFunction) -> Coefficients {
     Coefficients {
         b: tf.b.clone(),
         a: tf.a.clone(),
+    }
+}
+
+fn count_entry(c: &ZeroCount) -> CountEntry {
+    let how = if c.listed {
+        "from the roots (companion-matrix eigenvalues)".to_string()
+    } else {
+        let grid = c
+            .winding_within
+            .or(c.winding_inside)
+            .map_or("an FFT grid".to_string(), |w| {
+                format!("an FFT grid of {} points", w.grid_points)
+            });
+        let check = match (c.step_down, c.step_down_trusted) {
+            (Some(_), true) => "; cross-checked by the step-down count".to_string(),
+            (Some(s), false) => format!(
+                "; the step-down count is not trusted here (rounding growth {:.1e})",
+                s.growth
+            ),
+            (None, _) => "; the step-down count is undecided (|k| = 1)".to_string(),
+        };
+        format!(
+            "counted by the argument principle on {grid}{check}; not listed: the roots are \
+             computed only up to order {LISTED_ROOTS_MAX_ORDER}"
+        )
+    };
+    CountEntry {
+        inside: c.inside,
+        on_circle: c.on_circle,
+        outside: c.outside,
+        listed: c.listed,
+        how,
     }
 }
 
@@ -295,8 +333,11 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
             .iter()
             .filter(|p| p.placement != Placement::Inside)
             .collect();
-        let count: usize = bad.iter().map(|p| p.root.multiplicity).sum();
+        let mut count: usize = bad.iter().map(|p| p.root.multiplicity).sum();
         let largest = bad.iter().map(|p| p.root.radius()).fold(0.0, f64::max);
+        if !a.pole_count.listed {
+            count = a.pole_count.on_circle + a.pole_count.outside;
+        }
         return VerdictEntry {
             invertible: false,
             summary: format!(
@@ -307,6 +348,9 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
             ),
             blocking_zeros,
         };
+    }
+    if !a.zero_count.listed {
+        return unlisted_verdict(a, blocking_zeros);
     }
     if blocking_zeros.is_empty() {
         return VerdictEntry {
@@ -369,6 +413,49 @@ fn verdict(analysis: &Result<ChannelAnalysis, AnalysisError>, sample_rate: f64) 
     }
 }
 
+/// The verdict for a channel whose zeros were counted, not listed.
+fn unlisted_verdict(a: &ChannelAnalysis, blocking_zeros: Vec<BlockingZero>) -> VerdictEntry {
+    let c = &a.zero_count;
+    if a.verdict.is_invertible() {
+        return VerdictEntry {
+            invertible: true,
+            summary: format!(
+                "a stable causal inverse exists (all {} zeros counted strictly inside the unit \
+                 circle; not listed at this order)",
+                c.degree()
+            ),
+            blocking_zeros,
+        };
+    }
+    let mut parts = Vec::new();
+    if c.outside > 0 {
+        parts.push(format!(
+            "{} zero{} outside the unit circle",
+            c.outside,
+            plural(c.outside)
+        ));
+    }
+    if c.on_circle > 0 {
+        parts.push(format!(
+            "{} zero{} on the unit circle (within the tolerance or round-off)",
+            c.on_circle,
+            plural(c.on_circle)
+        ));
+    }
+    if parts.is_empty() {
+        parts.push("the step-down test and the count disagree near the circle".to_string());
+    }
+    VerdictEntry {
+        invertible: false,
+        summary: format!(
+            "no stable causal inverse — {} (of {}, counted by the argument principle, not listed)",
+            parts.join(" and "),
+            c.degree()
+        ),
+        blocking_zeros,
+    }
+}
+
 fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
     let ms = |samples: usize| samples as f64 * 1_000.0 / sample_rate;
     InverseEntry {
@@ -413,6 +500,12 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
                 .collect(),
             level_reduction_db: cap.level_reduction_db,
             peak_before_db: cap.peak_before_db,
+        }),
+        cepstral: d.cepstral.as_ref().map(|c| CepstralEntry {
+            fft_size: c.fft_size,
+            deviation_db: c.deviation_db,
+            reflected_count: c.reflected_count,
+            contraction: c.contraction,
         }),
         fir: d.fir.as_ref().map(|fir| FirEntry {
             taps: fir.taps,

@@ -54,6 +54,11 @@ pub struct PathReport {
     pub zeros: Vec<RootEntry>,
     /// Roots of A.
     pub poles: Vec<RootEntry>,
+    /// How many zeros lie inside, on and outside the circle; for a long channel the zeros are
+    /// counted this way and not listed (null when not analysed).
+    pub zero_count: Option<CountEntry>,
+    /// The same for the poles.
+    pub pole_count: Option<CountEntry>,
     /// Every pole strictly inside the unit circle (null when not analysed).
     pub channel_stable: Option<bool>,
     pub step_down: Option<StepDownEntry>,
@@ -75,6 +80,19 @@ pub struct PathReport {
 pub struct Coefficients {
     pub b: Vec<f64>,
     pub a: Vec<f64>,
+}
+
+/// Roots of one polynomial against the unit circle, counted.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CountEntry {
+    pub inside: usize,
+    pub on_circle: usize,
+    pub outside: usize,
+    /// True when the roots were computed and are listed; false above the order where they are
+    /// only counted.
+    pub listed: bool,
+    /// How the count was reached, in plain words.
+    pub how: String,
 }
 
 /// A zero or a pole.
@@ -169,6 +187,21 @@ pub struct InverseEntry {
     pub boost_cap: Option<BoostCapEntry>,
     /// Details of a least-squares FIR inverse.
     pub fir: Option<FirEntry>,
+    /// How the minimum-phase substitute was built without roots, when it was (long channels).
+    pub cepstral: Option<CepstralEntry>,
+}
+
+/// The homomorphic route's figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CepstralEntry {
+    /// FFT size the cepstrum converged at (points over the whole circle).
+    pub fft_size: usize,
+    /// Largest |20·log10(|B_min| / |B|)| before the cap moved zeros, notch bottoms aside (dB).
+    pub deviation_db: f64,
+    /// Zeros reflected from outside the circle (counted, not listed).
+    pub reflected_count: usize,
+    /// Common factor every zero was pulled in by after truncation (1: none).
+    pub contraction: f64,
 }
 
 /// The phase error a minimum-phase substitute leaves: an all-pass, described by its group delay.

@@ -3,7 +3,9 @@
 use std::fmt::Write;
 
 use super::numbers::{fixed, list, significant};
-use super::schema::{InverseEntry, LinkReport, PathReport, RealizationEntry, RootEntry};
+use super::schema::{
+    CountEntry, InverseEntry, LinkReport, PathReport, RealizationEntry, RootEntry,
+};
 
 /// Column at which values start, whatever the label's indent.
 const VALUE_COLUMN: usize = 20;
@@ -132,8 +134,8 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
     if let Some(error) = &path.analysis_error {
         line(out, 2, "analysis", &format!("failed: {error}"));
     } else {
-        roots_block(out, "zeros", &path.zeros);
-        roots_block(out, "poles", &path.poles);
+        counted_block(out, "zeros", &path.zeros, path.zero_count.as_ref());
+        counted_block(out, "poles", &path.poles, path.pole_count.as_ref());
         if let Some(stable) = path.channel_stable {
             line(
                 out,
@@ -147,8 +149,15 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
             );
         }
         if let Some(steps) = &path.step_down {
+            let listed = path.zero_count.as_ref().is_none_or(|c| c.listed)
+                && path.pole_count.as_ref().is_none_or(|c| c.listed);
             if steps.agrees_with_roots {
-                line(out, 2, "step-down test", "agrees with the roots");
+                let with = if listed {
+                    "agrees with the roots"
+                } else {
+                    "agrees with the counts"
+                };
+                line(out, 2, "step-down test", with);
             } else {
                 line(
                     out,
@@ -179,6 +188,25 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
     }
 }
 
+/// The roots as listed, or, above the order where they are computed, their counts.
+fn counted_block(out: &mut String, name: &str, roots: &[RootEntry], count: Option<&CountEntry>) {
+    match count {
+        Some(c) if !c.listed => {
+            line(
+                out,
+                2,
+                name,
+                &format!(
+                    "{} inside, {} on the circle, {} outside",
+                    c.inside, c.on_circle, c.outside
+                ),
+            );
+            line(out, 2, "", &c.how);
+        }
+        _ => roots_block(out, name, roots),
+    }
+}
+
 fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
     if roots.is_empty() {
         line(out, 2, name, "none");
@@ -197,7 +225,7 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
     let _ = writeln!(
         out,
         "    {:>11} {:>11} {:>10} {:>10} {:>11} {:>4}  {:<9} {:>11}",
-        "re", "im", "|z|", "angle rad", "angle Hz", "mult", "where", "1 - |z|"
+        "re", "im", "|z|", "angle rad", "tone Hz", "mult", "where", "1 - |z|"
     );
     for r in by_radius.iter().take(ROOT_ROWS) {
         let _ = writeln!(
@@ -207,7 +235,8 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
             fixed(r.im, 6),
             fixed(r.radius, 6),
             fixed(r.angle_rad, 4),
-            fixed(r.angle_hz, 1),
+            // A pair's two members are one tone to a listener: the frequency, not its sign.
+            fixed(r.angle_hz.abs(), 1),
             r.multiplicity,
             r.placement.replace('_', " "),
             short_margin(r.margin)
@@ -392,6 +421,39 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
         };
         what.push_str(&format!(" (uncapped peak {before})"));
         line(out, 4, "boost cap", &what);
+    }
+    if let Some(c) = &inverse.cepstral {
+        line(
+            out,
+            4,
+            "built by",
+            &format!(
+                "the cepstrum on a {}-point FFT (no roots); magnitude kept within {} dB before \
+                 the cap{}",
+                c.fft_size,
+                significant(c.deviation_db),
+                if c.contraction < 1.0 {
+                    format!(
+                        "; zeros pulled in by a factor {}",
+                        significant(c.contraction)
+                    )
+                } else {
+                    String::new()
+                }
+            ),
+        );
+        if c.reflected_count > 0 {
+            line(
+                out,
+                4,
+                "reflected",
+                &format!(
+                    "{} zero{} outside the circle (counted, not listed)",
+                    c.reflected_count,
+                    if c.reflected_count == 1 { "" } else { "s" }
+                ),
+            );
+        }
     }
     if let Some(fir) = &inverse.fir {
         line(

@@ -13,8 +13,8 @@ use std::path::Path;
 
 use crate::model::error::{ConfigError, ConfigErrorKind};
 
-/// Largest config file read (16 MiB): 64 paths of 1024 coefficients written out in full take
-/// under 2 MiB, so anything larger is not a link config.
+/// Largest config file read (16 MiB): 64 paths of 4097 coefficients written out in full take
+/// under 7 MiB, so anything larger is not a link config.
 pub const MAX_CONFIG_BYTES: u64 = 16 << 20;
 
 fn fail(path: &Path, kind: ConfigErrorKind, problem: String, help: &str) -> ConfigError {

@@ -8,7 +8,7 @@ use plotters::prelude::*;
 
 use super::style::{caption, failed, label, PictureError, CHANNEL, GUIDE, INVERSE};
 use crate::numeric::poly::leading_zeros;
-use crate::numeric::roots::{find_roots, Root};
+use crate::numeric::roots::{find_roots, Root, AFFORDABLE_ORDER};
 
 /// One diagram: a title and the roots to draw.
 pub struct PoleZeroPanel {
@@ -19,12 +19,28 @@ pub struct PoleZeroPanel {
 
 impl PoleZeroPanel {
     /// The roots of B(z)/A(z) (B's bulk delay left out: it only adds poles at the origin).
+    ///
+    /// Above [`AFFORDABLE_ORDER`] the roots are not computed (minutes at order 4096): the panel
+    /// then shows none of that polynomial's and says so in its title.
     pub fn from_coefficients(title: String, b: &[f64], a: &[f64]) -> Self {
         let stripped = &b[leading_zeros(b).min(b.len())..];
+        let affordable = |c: &[f64]| c.len().saturating_sub(1) <= AFFORDABLE_ORDER;
+        let roots_of = |c: &[f64]| {
+            if affordable(c) {
+                find_roots(c).unwrap_or_default()
+            } else {
+                Vec::new()
+            }
+        };
+        let title = if affordable(stripped) && affordable(a) {
+            title
+        } else {
+            format!("{title} (roots above order {AFFORDABLE_ORDER} not drawn)")
+        };
         Self {
             title,
-            zeros: find_roots(stripped).unwrap_or_default(),
-            poles: find_roots(a).unwrap_or_default(),
+            zeros: roots_of(stripped),
+            poles: roots_of(a),
         }
     }
 }
