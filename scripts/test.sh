@@ -20,7 +20,11 @@ stage "reference fixtures (numpy/scipy, pinned)" \
     env REDRESS_FIXTURES_OTHER_PATH=1 bash scripts/reference/check_fixtures.sh
 
 stage "build (tests, benches, examples)" cargo build --all-targets
-stage "cargo test" cargo test --all-targets
+# tests/service_metrics.rs leaves the figures it took here, for the outside parser below.
+metrics_samples=$(mktemp -d)
+stage "cargo test" env REDRESS_METRICS_SAMPLES_DIR="$metrics_samples" cargo test --all-targets
+stage "figures read by prometheus_client (pinned)" \
+    sh scripts/reference/check_metrics.sh "$metrics_samples"
 
 # A short fuzzing run of both targets from the committed corpus (fuzz/README.md). The campaign's
 # hang limit is 1 s per input, measured alone; the slowest committed inputs take up to about 1 s
