@@ -11,7 +11,7 @@ source scripts/lib/ensure_tools.sh
 # shellcheck source=lib/stages.sh
 source scripts/lib/stages.sh
 
-stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv \
+stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv systemd \
     pulseaudio pulseaudio-utils libasound2-plugins
 ensure_cargo
 
