@@ -15,16 +15,16 @@ add their opening time (tens of milliseconds for ALSA hardware) to the simulated
 """
 
 import argparse
-import json
 import os
 import re
 import signal
-import socket
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
+
+from status_socket import ask
 
 ROOT = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
 
@@ -40,17 +40,7 @@ def restart_sec(unit):
 
 def frames(path):
     try:
-        with socket.socket(socket.AF_UNIX, socket.SOCK_STREAM) as s:
-            s.settimeout(1.0)
-            s.connect(path)
-            s.sendall(b"status\n")
-            data = b""
-            while not data.endswith(b"\n"):
-                chunk = s.recv(65536)
-                if not chunk:
-                    break
-                data += chunk
-        return json.loads(data).get("engine", {}).get("frames", 0)
+        return ask(path, timeout=1.0).get("engine", {}).get("frames", 0)
     except (OSError, ValueError):
         return 0
 

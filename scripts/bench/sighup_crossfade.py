@@ -12,36 +12,22 @@ config's reading and design, the new set's warm-up on the live input (its own de
 a config whose design and decay are short: the default is such a one) and the poll's own round
 trip, printed apart as the resolution. A measurement, not a test: it asserts nothing.
 
-Standard library only; the status protocol is one request line, one answer line.
+Standard library only (and status_socket.py beside it).
 """
 
 import argparse
-import json
 import os
 import random
 import signal
-import socket
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
 
+from status_socket import ask
+
 ROOT = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", ".."))
-
-
-def ask(path):
-    with socket.socket(socket.AF_UNIX, socket.SOCK_STREAM) as s:
-        s.settimeout(2.0)
-        s.connect(path)
-        s.sendall(b"status\n")
-        data = b""
-        while not data.endswith(b"\n"):
-            chunk = s.recv(65536)
-            if not chunk:
-                break
-            data += chunk
-    return json.loads(data)
 
 
 def engine(path):
