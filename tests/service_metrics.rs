@@ -142,6 +142,19 @@ fn counters_never_go_down_across_reloads_restarts_and_device_loss() {
     let first = sampler.take(&svc, "start");
     assert!(value(&first, "redress_processed_frames_total") >= 48_000.0);
     assert!(value(&first, "redress_callback_duration_seconds_count") > 0.0);
+    // The command a user types prints the same exposition.
+    let printed = std::process::Command::new(env!("CARGO_BIN_EXE_redress"))
+        .args(["status", "--openmetrics", "--socket"])
+        .arg(&svc.socket)
+        .output()
+        .unwrap();
+    assert_eq!(printed.status.code(), Some(0));
+    let printed = String::from_utf8(printed.stdout).unwrap();
+    assert!(printed.ends_with("# EOF\n"), "{printed}");
+    assert!(
+        samples(&printed)["redress_processed_frames_total"]
+            >= value(&first, "redress_processed_frames_total")
+    );
 
     // A reload that swaps filters in the running engine.
     std::fs::write(&config, LINK_B).unwrap();
@@ -203,6 +216,21 @@ fn leaves_only_the_file(dir: &Path, file: &Path) {
         .collect();
     assert!(strays.is_empty(), "{strays:?}");
     assert!(file.exists());
+}
+
+#[test]
+fn openmetrics_without_a_service_is_an_error_naming_the_socket() {
+    let dir = temp_dir("metrics-no-service");
+    let socket = dir.join("nobody.sock");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_redress"))
+        .args(["status", "--openmetrics", "--socket"])
+        .arg(&socket)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    assert!(out.stdout.is_empty());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("nobody.sock"), "{err}");
 }
 
 #[test]
