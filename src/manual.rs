@@ -8,14 +8,18 @@ use clap_complete::Shell;
 
 use crate::exit_codes as exit;
 
+/// The name the completions complete.
+const BINARY: &str = "redress";
+
 /// Writes `redress.1` and one page per subcommand (`redress-run.1`, …), and the completions for
 /// bash (`redress.bash`), zsh (`_redress`) and fish (`redress.fish`), into `dir`.
-pub fn write_package_files(mut command: clap::Command, dir: &Path) -> u8 {
+pub fn write_package_files(command: clap::Command, dir: &Path) -> u8 {
     let written = std::fs::create_dir_all(dir)
         .and_then(|()| clap_mangen::generate_to(command.clone(), dir))
         .and_then(|()| {
+            let mut advertised = without_hidden_subcommands(&command);
             for shell in [Shell::Bash, Shell::Zsh, Shell::Fish] {
-                clap_complete::generate_to(shell, &mut command, "redress", dir)?;
+                clap_complete::generate_to(shell, &mut advertised, BINARY, dir)?;
             }
             Ok(())
         });
@@ -30,4 +34,34 @@ pub fn write_package_files(mut command: clap::Command, dir: &Path) -> u8 {
             exit::FAILED
         }
     }
+}
+
+/// The command as the completions offer it: the bash and zsh generators of clap_complete list
+/// hidden subcommands too, so those (this one among them) are left out of the copy they see.
+fn without_hidden_subcommands(command: &clap::Command) -> clap::Command {
+    let mut advertised = command.clone();
+    let hidden: Vec<String> = command
+        .get_subcommands()
+        .filter(|s| s.is_hide_set())
+        .map(|s| s.get_name().to_string())
+        .collect();
+    if hidden.is_empty() {
+        return advertised;
+    }
+    let visible: Vec<clap::Command> = command
+        .get_subcommands()
+        .filter(|s| !s.is_hide_set())
+        .cloned()
+        .collect();
+    advertised = clap::Command::new(BINARY)
+        .version(env!("CARGO_PKG_VERSION"))
+        .about(command.get_about().cloned().unwrap_or_default())
+        .args(
+            command
+                .get_arguments()
+                .filter(|a| !a.is_hide_set())
+                .cloned(),
+        )
+        .subcommands(visible);
+    advertised
 }

@@ -113,10 +113,17 @@ fn every_subcommand_and_option_is_in_the_manual_and_the_completions() {
         }
     }
     assert!(checked >= 50, "only {checked} options checked");
-    // The hidden subcommand that writes these files has no page and is not in the manual (the
-    // bash and zsh completions of clap_complete 4 do offer hidden subcommands).
+    // The hidden subcommand that writes these files is advertised nowhere.
     assert!(!top.contains("package\\-files"));
     assert!(!dir.join("redress-package-files.1").exists());
+    for (shell, text) in [("bash", &bash), ("zsh", &zsh), ("fish", &fish)] {
+        assert!(
+            !text.contains("package-files"),
+            "{shell} offers package-files"
+        );
+    }
+    // The top level's own options are completed too.
+    assert!(bash.contains("--version") && fish.contains("-l version"));
     std::fs::remove_dir_all(&dir).unwrap();
 }
 
