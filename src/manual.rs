@@ -27,7 +27,8 @@ pub fn write_package_files(command: clap::Command, dir: &Path) -> u8 {
         Ok(()) => exit::OK,
         Err(e) => {
             eprintln!(
-                "error: cannot write the manual and completions into {}: {}",
+                "error: cannot write the manual and completions into {}: {}\n  help: name a \
+                 folder you may write to (it is created when missing)",
                 dir.display(),
                 redress::os_error::plain_os_error(&e)
             );
@@ -39,21 +40,10 @@ pub fn write_package_files(command: clap::Command, dir: &Path) -> u8 {
 /// The command as the completions offer it: the bash and zsh generators of clap_complete list
 /// hidden subcommands too, so those (this one among them) are left out of the copy they see.
 fn without_hidden_subcommands(command: &clap::Command) -> clap::Command {
-    let mut advertised = command.clone();
-    let hidden: Vec<String> = command
-        .get_subcommands()
-        .filter(|s| s.is_hide_set())
-        .map(|s| s.get_name().to_string())
-        .collect();
-    if hidden.is_empty() {
-        return advertised;
+    if !command.get_subcommands().any(|s| s.is_hide_set()) {
+        return command.clone();
     }
-    let visible: Vec<clap::Command> = command
-        .get_subcommands()
-        .filter(|s| !s.is_hide_set())
-        .cloned()
-        .collect();
-    advertised = clap::Command::new(BINARY)
+    clap::Command::new(BINARY)
         .version(env!("CARGO_PKG_VERSION"))
         .about(command.get_about().cloned().unwrap_or_default())
         .args(
@@ -62,6 +52,10 @@ fn without_hidden_subcommands(command: &clap::Command) -> clap::Command {
                 .filter(|a| !a.is_hide_set())
                 .cloned(),
         )
-        .subcommands(visible);
-    advertised
+        .subcommands(
+            command
+                .get_subcommands()
+                .filter(|s| !s.is_hide_set())
+                .cloned(),
+        )
 }

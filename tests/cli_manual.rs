@@ -138,6 +138,9 @@ fn an_unwritable_folder_is_an_error_with_the_reason() {
         .unwrap();
     assert_eq!(out.status.code(), Some(1));
     let err = String::from_utf8_lossy(&out.stderr);
-    assert!(err.contains("cannot write the manual"), "{err}");
+    assert!(
+        err.contains("cannot write the manual") && err.contains("help:"),
+        "{err}"
+    );
     std::fs::remove_file(&file).unwrap();
 }
