@@ -369,8 +369,12 @@ fn the_example_unit_runs_unprivileged_and_hardened() {
 // RLIMIT_MEMLOCK, and RestrictRealtime=yes refuses real-time scheduling whatever the limit;
 // sched(7) — an unprivileged thread may take SCHED_FIFO up to RLIMIT_RTPRIO.
 #[test]
-fn both_example_units_allow_the_default_callback_priority_and_locked_memory() {
-    for name in ["redress.service", "redress-user.service"] {
+fn every_example_unit_allows_the_default_callback_priority_and_locked_memory() {
+    for name in [
+        "redress.service",
+        "redress-user.service",
+        "redress@.service",
+    ] {
         let value = |key: &str| example_unit_value(name, key);
         let rtprio: u8 = value("LimitRTPRIO")
             .and_then(|v| v.parse().ok())

@@ -52,7 +52,7 @@ last = docs[-1]
 e = last["engine"]
 print(last["audio"]["description"])
 print(f"{len(docs)} status reads; ring fill before a playback callback: lowest {lows[0]}, "
-      f"median of the quarter-second lows {lows[len(lows) // 2]}, highest {max(highs)} frames")
+      f"median of the lows between readings {lows[len(lows) // 2]}, highest {max(highs)} frames")
 print(f"input overruns {e['input_overruns']} samples, output underruns {e['output_underruns']} "
       f"samples, stream errors {last['audio']['stream_errors']}")
 for t in last["audio"]["realtime"]["threads"]:

@@ -265,7 +265,9 @@ pub fn render_status_text(doc: &Value) -> String {
             engine["ring_fill_low_frames"].as_u64(),
             engine["ring_fill_high_frames"].as_u64(),
         ) {
-            (Some(low), Some(high)) => format!(", {low} to {high} over the last quarter second"),
+            (Some(low), Some(high)) => {
+                format!(", {low} to {high} since the previous reading (a second at most)")
+            }
             _ => String::new(),
         };
         out.push_str(&format!(
@@ -311,7 +313,7 @@ pub fn render_status_text(doc: &Value) -> String {
             .unwrap_or_default()
     };
     out.push_str(&format!(
-        "levels       in {} dBFS, out {} dBFS (peaks over the last quarter second)\n",
+        "levels       in {} dBFS, out {} dBFS (peaks over the last second or so)\n",
         levels("input_peak_dbfs"),
         levels("output_peak_dbfs")
     ));

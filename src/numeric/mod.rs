@@ -1,6 +1,8 @@
 //! Arithmetic shared by every stage: polynomials in z⁻¹, their roots, the step-down
-//! (Schur–Cohn) recursion and frequency responses. Nothing here knows about audio or config.
+//! (Schur–Cohn) recursion, frequency responses and fractional-octave bands. Nothing here knows
+//! about audio or config.
 
+pub mod fractional_octave;
 pub mod homomorphic;
 pub mod impulse;
 pub mod poly;
