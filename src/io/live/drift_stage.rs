@@ -17,11 +17,15 @@ use ringbuf::HeapCons;
 use super::drift::{DriftLoop, DriftResampler, DriftResamplerError};
 use crate::engine::EngineStats;
 
-/// When the capture side last pushed into the ring, as nanoseconds since a shared start.
+/// When the capture side last pushed into the ring, as nanoseconds since a shared start, and
+/// the clock both sides read: the monotonic clock, or (tests only) a simulated one that the
+/// test moves, so a drifting device pair can be run through the real sides in simulated time.
 #[derive(Debug)]
 pub struct PushClock {
     epoch: Instant,
     last_push_ns: AtomicU64,
+    /// `Some` when simulated: the current time, ns, as the test last set it.
+    simulated_ns: Option<AtomicU64>,
 }
 
 impl PushClock {
@@ -29,22 +33,41 @@ impl PushClock {
         Arc::new(Self {
             epoch: Instant::now(),
             last_push_ns: AtomicU64::new(0),
+            simulated_ns: None,
         })
+    }
+
+    /// A clock that stands still until [`Self::set_simulated_seconds`] moves it.
+    #[cfg(any(test, feature = "test-door"))]
+    pub fn simulated() -> Arc<Self> {
+        Arc::new(Self {
+            epoch: Instant::now(),
+            last_push_ns: AtomicU64::new(0),
+            simulated_ns: Some(AtomicU64::new(0)),
+        })
+    }
+
+    /// Moves a simulated clock to `seconds` after its start (no effect on a real one).
+    #[cfg(any(test, feature = "test-door"))]
+    pub fn set_simulated_seconds(&self, seconds: f64) {
+        if let Some(now) = &self.simulated_ns {
+            now.store((seconds * 1e9) as u64, Ordering::Relaxed);
+        }
+    }
+
+    /// Nanoseconds since the start.
+    #[inline]
+    fn now_ns(&self) -> u64 {
+        match &self.simulated_ns {
+            Some(now) => now.load(Ordering::Relaxed),
+            None => self.epoch.elapsed().as_nanos() as u64,
+        }
     }
 
     /// Called by the capture side right after a push.
     #[inline]
     pub fn mark_push(&self) {
-        let ns = self.epoch.elapsed().as_nanos() as u64;
-        self.last_push_ns.store(ns, Ordering::Relaxed);
-    }
-
-    /// Seconds since the last push (0 when none yet or the clock stepped back).
-    #[inline]
-    fn since_last_push(&self, now: Instant) -> f64 {
-        let now_ns = now.saturating_duration_since(self.epoch).as_nanos() as u64;
-        let last = self.last_push_ns.load(Ordering::Relaxed);
-        now_ns.saturating_sub(last) as f64 * 1e-9
+        self.last_push_ns.store(self.now_ns(), Ordering::Relaxed);
     }
 }
 
@@ -69,7 +92,8 @@ pub(super) struct DriftStage {
     input: Box<[f32]>,
     period: Box<[f32]>,
     served: usize,
-    last_update: Option<Instant>,
+    /// When the loop last updated, ns on the push clock.
+    last_update_ns: Option<u64>,
 }
 
 impl DriftStage {
@@ -95,7 +119,7 @@ impl DriftStage {
             input,
             period,
             served,
-            last_update: None,
+            last_update_ns: None,
         })
     }
 
@@ -125,13 +149,14 @@ impl DriftStage {
     }
 
     fn next_period(&mut self, ring: &mut HeapCons<f32>, stats: &EngineStats, done: &mut Filled) {
-        let now = Instant::now();
+        let now = self.clock.now_ns();
+        let since_push = now.saturating_sub(self.clock.last_push_ns.load(Ordering::Relaxed));
         let occupied = (ring.occupied_len() / self.channels) as f64;
-        let fill = occupied + self.clock.since_last_push(now) * self.sample_rate;
+        let fill = occupied + since_push as f64 * 1e-9 * self.sample_rate;
         let dt = self
-            .last_update
-            .map_or(0.0, |t| now.saturating_duration_since(t).as_secs_f64());
-        self.last_update = Some(now);
+            .last_update_ns
+            .map_or(0.0, |t| now.saturating_sub(t) as f64 * 1e-9);
+        self.last_update_ns = Some(now);
         let ratio = self.control.update(fill, dt);
         stats.record_drift_ppm(self.control.drift_ppm());
         self.resampler.set_ratio(ratio);

@@ -18,6 +18,7 @@ mod devices;
 mod dither;
 pub mod drift;
 mod drift_stage;
+pub use drift_stage::PushClock;
 mod duplex;
 mod error;
 mod memory_lock;
@@ -49,6 +50,8 @@ pub use playout::PlayoutProgress;
 pub use realtime::{
     request_for_priority, CallbackScheduling, RealtimeStatus, SchedulingRequest, SchedulingWatch,
 };
+#[cfg(any(test, feature = "test-door"))]
+pub use ring::duplex_sides_two_clocks_on;
 pub use ring::{
     duplex_sides, duplex_sides_two_clocks, RingPlan, PREFILL_PERIODS, RING_PERIODS,
     TWO_CLOCK_TARGET_HALF_PERIODS,

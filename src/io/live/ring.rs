@@ -81,8 +81,29 @@ pub fn duplex_sides_two_clocks(
     period_frames: usize,
     sample_rate: f64,
 ) -> Result<(CaptureSide, PlaybackSide, RingPlan), DriftResamplerError> {
+    two_clock_sides(engine, stats, period_frames, sample_rate, PushClock::new())
+}
+
+/// As [`duplex_sides_two_clocks`], with both sides reading `clock` (tests: a simulated one).
+#[cfg(any(test, feature = "test-door"))]
+pub fn duplex_sides_two_clocks_on(
+    engine: Engine,
+    stats: Arc<EngineStats>,
+    period_frames: usize,
+    sample_rate: f64,
+    clock: Arc<PushClock>,
+) -> Result<(CaptureSide, PlaybackSide, RingPlan), DriftResamplerError> {
+    two_clock_sides(engine, stats, period_frames, sample_rate, clock)
+}
+
+fn two_clock_sides(
+    engine: Engine,
+    stats: Arc<EngineStats>,
+    period_frames: usize,
+    sample_rate: f64,
+    clock: Arc<PushClock>,
+) -> Result<(CaptureSide, PlaybackSide, RingPlan), DriftResamplerError> {
     let (mut capture, mut playback, plan) = sides(engine, stats, period_frames, true);
-    let clock = PushClock::new();
     let stage = DriftStage::new(
         Arc::clone(&clock),
         plan.channels,
