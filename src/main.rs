@@ -20,7 +20,7 @@ use redress::control::{
 use redress::io::{self, check_output_files, Existing, FileRunOptions, FileRunSummary};
 use redress::model::config::{load_link, parse_link};
 use redress::model::Link;
-use redress::pipeline::plan_link;
+use redress::pipeline::{add_trade_offs, plan_link};
 use redress::report::{link_report, render_json, render_summary, render_text};
 
 /// The demo's link when no config is named: a line with one echo, built into the binary so the
@@ -364,7 +364,8 @@ fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
         Ok(link) => link,
         Err(code) => return code,
     };
-    let plan = plan_link(&link);
+    let mut plan = plan_link(&link);
+    add_trade_offs(&mut plan);
     let report = link_report(&plan, link.source.as_deref());
     let text = render_text(&report);
     if json {

@@ -35,7 +35,7 @@ const LONGEST_CHANNEL_RESPONSE: usize = 1 << 16;
 
 /// The rule for the taps, in words (for the reports).
 pub const TAPS_RULE: &str =
-    "channel response length to -60 dB + 2 x total delay, from 256 to 4096 taps";
+    "the channel's response to -60 dB plus twice the total delay, 256 to 4096 taps";
 
 /// One candidate inverse and its figures.
 #[derive(Debug, Clone, PartialEq, Serialize)]
