@@ -135,3 +135,69 @@ fn table_against_numpy_and_scipy() {
     }
     bad.assert_none();
 }
+
+/// The latency-knee rule (README) over (latency, residual) pairs whose other conditions hold:
+/// the least latency within `margin` dB of the best, residuals below `floor` counting as it.
+fn knee_latency(rows: &[(usize, f64)], margin: f64, floor: f64) -> Option<usize> {
+    let best = rows
+        .iter()
+        .map(|r| r.1.max(floor))
+        .fold(f64::INFINITY, f64::min);
+    rows.iter()
+        .filter(|r| r.1.max(floor) <= best + margin)
+        .map(|r| r.0)
+        .min()
+}
+
+// The latency-knee method on the fixtures' channels picks the latency the same rule picks over
+// numpy's residuals (pre-ringing and boost taken from our rows, which the first test holds to
+// numpy's residuals), for budgets across the ladder.
+#[test]
+fn latency_knee_against_the_numpy_residuals() {
+    use redress::design::{
+        design_inverse, KNEE_MARGIN_DB, PRE_RINGING_LIMIT_DB, RESIDUAL_FLOOR_DB,
+    };
+    use redress::model::InverseMethod;
+    let mut bad = Mismatches(Vec::new());
+    for f in fixtures() {
+        let channel = TransferFunction::new(f.b.clone(), f.a.clone());
+        let analysis = analyse(&channel, 1e-9).unwrap();
+        for budget_ms in [1.0, 2.0, 5.0, 10.0, 20.0] {
+            let policy = InversePolicy {
+                method: InverseMethod::LatencyKnee,
+                knee_budget_seconds: budget_ms / 1000.0,
+                ..InversePolicy::default()
+            };
+            let d = design_inverse(&channel, &analysis, &policy, f.sample_rate).unwrap();
+            let knee = d.knee.as_ref().unwrap();
+            let table = knee.table.as_ref().unwrap();
+            let budget = (budget_ms * f.sample_rate / 1000.0).round() as usize;
+            let mut candidates: Vec<(usize, f64)> = Vec::new();
+            // The substitute's residual is ours (numpy has no such row); the FIRs' are numpy's.
+            let substitute = &table.rows[0];
+            if substitute.figures.pre_ringing_db <= PRE_RINGING_LIMIT_DB {
+                candidates.push((0, substitute.figures.residual_error_db));
+            }
+            for (ours, reference) in table.rows[1..].iter().zip(&f.fir_rows) {
+                if ours.latency_samples <= budget
+                    && ours.figures.pre_ringing_db <= PRE_RINGING_LIMIT_DB
+                    && ours.peak_boost_db <= 20.0
+                {
+                    candidates.push((reference.latency_samples, reference.lstsq_residual_db));
+                }
+            }
+            let expected =
+                knee_latency(&candidates, KNEE_MARGIN_DB, RESIDUAL_FLOOR_DB).unwrap_or(0);
+            let picked = knee.picked.as_ref().unwrap().latency_samples;
+            if picked != expected {
+                bad.note(
+                    &f.name,
+                    &format!("knee at a {budget_ms} ms budget"),
+                    format!("expected {expected} samples, picked {picked}"),
+                );
+            }
+            assert_eq!(d.added_latency_samples, picked, "{}", f.name);
+        }
+    }
+    bad.assert_none();
+}

@@ -4,7 +4,8 @@
 //! Candidates are the rows of the trade-off table (the minimum-phase substitute at no added
 //! latency, the least-squares FIR at each latency of the ladder) whose latency fits the budget,
 //! whose pre-ringing stays under [`PRE_RINGING_LIMIT_DB`] and whose boost respects the cap. The
-//! best is the admissible candidate with the smallest residual error; the pick is the one with
+//! best is the admissible candidate with the smallest residual error (residuals below
+//! [`RESIDUAL_FLOOR_DB`] counting as the floor); the pick is the one with
 //! the least latency whose residual is within [`KNEE_MARGIN_DB`] of the best (at equal latency,
 //! the smaller residual). The runner-up is what the same rule picks with the pick left out. When
 //! an exact inverse exists within the cap there is nothing to trade: it is used.
@@ -28,6 +29,15 @@ pub const KNEE_MARGIN_DB: f64 = 1.0;
 /// delayed inverse trades for its error).
 pub const PRE_RINGING_LIMIT_DB: f64 = -20.0;
 
+/// Residual errors below this count as this (dB): beneath the resolution of 20-bit audio, so
+/// what separates them is rounding in the design, not correction anyone can hear.
+pub const RESIDUAL_FLOOR_DB: f64 = -120.0;
+
+/// The residual the rule compares: the row's, no lower than [`RESIDUAL_FLOOR_DB`].
+pub fn judged_residual(row: &TradeOffRow) -> f64 {
+    row.figures.residual_error_db.max(RESIDUAL_FLOOR_DB)
+}
+
 /// Slack on the boost cap for figures read on a grid (dB).
 const CAP_SLACK_DB: f64 = 1e-9;
 
@@ -44,7 +54,7 @@ pub fn admissible(row: &TradeOffRow, budget_samples: usize, cap_db: f64) -> bool
     row.latency_samples <= budget_samples
         && row.figures.pre_ringing_db <= PRE_RINGING_LIMIT_DB
         && row.peak_boost_db <= cap_db + CAP_SLACK_DB
-        && row.figures.residual_error_db.is_finite()
+        && !row.figures.residual_error_db.is_nan()
 }
 
 /// The knee among `rows` (see the module comment); `None` when no row is admissible.
@@ -56,12 +66,9 @@ pub fn choose_knee(
     let candidates: Vec<usize> = (0..rows.len())
         .filter(|&i| admissible(&rows[i], budget_samples, cap_db))
         .collect();
-    let best = *candidates.iter().min_by(|&&x, &&y| {
-        rows[x]
-            .figures
-            .residual_error_db
-            .total_cmp(&rows[y].figures.residual_error_db)
-    })?;
+    let best = *candidates
+        .iter()
+        .min_by(|&&x, &&y| judged_residual(&rows[x]).total_cmp(&judged_residual(&rows[y])))?;
     let picked = knee_of(rows, &candidates, best)?;
     let rest: Vec<usize> = candidates
         .iter()
@@ -71,12 +78,7 @@ pub fn choose_knee(
     let runner_up = rest
         .iter()
         .copied()
-        .min_by(|&x, &y| {
-            rows[x]
-                .figures
-                .residual_error_db
-                .total_cmp(&rows[y].figures.residual_error_db)
-        })
+        .min_by(|&x, &y| judged_residual(&rows[x]).total_cmp(&judged_residual(&rows[y])))
         .and_then(|best_rest| knee_of(rows, &rest, best_rest));
     Some(KneeIndices {
         picked,
@@ -87,19 +89,17 @@ pub fn choose_knee(
 
 /// Among `candidates`, ordered by latency then residual, the first within the margin of `best`.
 fn knee_of(rows: &[TradeOffRow], candidates: &[usize], best: usize) -> Option<usize> {
-    let bar = rows[best].figures.residual_error_db + KNEE_MARGIN_DB;
+    let bar = judged_residual(&rows[best]) + KNEE_MARGIN_DB;
     let mut ordered = candidates.to_vec();
     ordered.sort_by(|&x, &y| {
-        rows[x].latency_samples.cmp(&rows[y].latency_samples).then(
-            rows[x]
-                .figures
-                .residual_error_db
-                .total_cmp(&rows[y].figures.residual_error_db),
-        )
+        rows[x]
+            .latency_samples
+            .cmp(&rows[y].latency_samples)
+            .then(judged_residual(&rows[x]).total_cmp(&judged_residual(&rows[y])))
     });
     ordered
         .into_iter()
-        .find(|&i| rows[i].figures.residual_error_db <= bar)
+        .find(|&i| judged_residual(&rows[i]) <= bar)
 }
 
 /// What the latency-knee method chose, and why.

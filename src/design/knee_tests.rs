@@ -37,9 +37,10 @@ fn brute_force(
     let ok = |i: usize| Some(i) != leave_out && admissible(&rows[i], budget, cap);
     let best = (0..rows.len())
         .filter(|&i| ok(i))
-        .map(|i| rows[i].figures.residual_error_db)
+        .map(|i| rows[i].figures.residual_error_db.max(RESIDUAL_FLOOR_DB))
         .fold(f64::INFINITY, f64::min);
-    let good = |i: usize| ok(i) && rows[i].figures.residual_error_db <= best + KNEE_MARGIN_DB;
+    let level = |i: usize| rows[i].figures.residual_error_db.max(RESIDUAL_FLOOR_DB);
+    let good = |i: usize| ok(i) && level(i) <= best + KNEE_MARGIN_DB;
     (0..rows.len()).find(|&i| {
         good(i)
             && (0..rows.len()).all(|j| {
@@ -47,17 +48,14 @@ fn brute_force(
                     || !good(j)
                     || rows[j].latency_samples > rows[i].latency_samples
                     || (rows[j].latency_samples == rows[i].latency_samples
-                        && (rows[j].figures.residual_error_db > rows[i].figures.residual_error_db
-                            || (rows[j].figures.residual_error_db
-                                == rows[i].figures.residual_error_db
-                                && j > i)))
+                        && (level(j) > level(i) || (level(j) == level(i) && j > i)))
             })
     })
 }
 
 fn rows_strategy() -> impl Strategy<Value = Vec<TradeOffRow>> {
     prop::collection::vec(
-        (0usize..6, -80.0f64..5.0, -60.0f64..0.0, 0.0f64..25.0),
+        (0usize..6, -160.0f64..5.0, -60.0f64..0.0, 0.0f64..25.0),
         1..10,
     )
     .prop_map(|cells| {
@@ -95,7 +93,7 @@ proptest! {
             let best = &rows[k.best];
             prop_assert!(admissible(best, budget, cap));
             prop_assert!(rows.iter().all(|r| !admissible(r, budget, cap)
-                || r.figures.residual_error_db >= best.figures.residual_error_db));
+                || judged_residual(r) >= judged_residual(best)));
         }
     }
 }

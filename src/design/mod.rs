@@ -31,7 +31,8 @@ pub use decay::decay_60db_samples;
 pub use exact::design_exact;
 pub use judged_band::judged_band;
 pub use knee::{
-    admissible, choose_knee, KneeChoice, KneeIndices, KNEE_MARGIN_DB, PRE_RINGING_LIMIT_DB,
+    admissible, choose_knee, judged_residual, KneeChoice, KneeIndices, KNEE_MARGIN_DB,
+    PRE_RINGING_LIMIT_DB, RESIDUAL_FLOOR_DB,
 };
 pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution, FirSystem};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
