@@ -12,18 +12,16 @@ use crate::design::{DesignMethod, TradeOff, TradeOffRow};
 /// Writes the table's picture into `file`.
 pub fn draw_trade_off(file: &Path, title: &str, table: &TradeOff) -> Result<(), PictureError> {
     let point = |r: &TradeOffRow| (r.latency_ms, finite_db(r.figures.residual_error_db));
-    let fir: Vec<(f64, f64)> = table
-        .rows
-        .iter()
-        .filter(|r| r.method == DesignMethod::LeastSquaresFir)
-        .map(point)
-        .collect();
-    let minimum_phase: Vec<(f64, f64)> = table
-        .rows
-        .iter()
-        .filter(|r| r.method == DesignMethod::MinimumPhase)
-        .map(point)
-        .collect();
+    let points_of = |method: DesignMethod| -> Vec<(f64, f64)> {
+        table
+            .rows
+            .iter()
+            .filter(|r| r.method == method)
+            .map(point)
+            .collect()
+    };
+    let fir = points_of(DesignMethod::LeastSquaresFir);
+    let minimum_phase = points_of(DesignMethod::MinimumPhase);
     let configured: Option<(f64, f64)> = table.configured.as_ref().map(point);
     let all: Vec<f64> = fir
         .iter()
