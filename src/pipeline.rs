@@ -150,7 +150,8 @@ fn plan_path(path: &Path, sample_rate: f64) -> PathPlan {
 }
 
 /// True when the path has no exact stable causal inverse within its boost cap: a zero on or
-/// outside the circle, or a minimum-phase design whose cap acted.
+/// outside the circle, a minimum-phase design whose cap acted, or an exact inverse refused for
+/// its boost.
 pub fn needs_trade_off(plan: &PathPlan) -> bool {
     let Ok(analysis) = &plan.analysis else {
         return false;
@@ -158,7 +159,11 @@ pub fn needs_trade_off(plan: &PathPlan) -> bool {
     if !analysis.channel_stable {
         return false;
     }
-    let capped = matches!(&plan.design, Some(Ok(d)) if d.method == DesignMethod::MinimumPhase && d.boost_cap.is_some());
+    let capped = match &plan.design {
+        Some(Ok(d)) => d.method == DesignMethod::MinimumPhase && d.boost_cap.is_some(),
+        Some(Err(e)) => matches!(e, DesignError::OverBoostCap { .. }),
+        None => false,
+    };
     !analysis.verdict.is_invertible() || capped
 }
 
