@@ -84,16 +84,24 @@ impl CascadeJudge {
 
     /// The figures of channel∘(b/a) against δ(n − `delay`).
     pub fn judge(&self, b: &[f64], a: &[f64], delay: usize) -> CascadeFigures {
-        let (gb, ga) = (
-            spectrum_on_grid(b, self.size),
-            spectrum_on_grid(a, self.size),
-        );
-        let mut cascade: Vec<Complex64> = self
-            .channel
-            .iter()
-            .zip(gb.iter().zip(&ga))
-            .map(|(h, (b, a))| h * b / a)
-            .collect();
+        let gb = spectrum_on_grid(b, self.size);
+        // An FIR (a = [a₀]) needs no second transform: half the work for most rows.
+        let mut cascade: Vec<Complex64> = match a {
+            [a0] => self
+                .channel
+                .iter()
+                .zip(&gb)
+                .map(|(h, b)| h * b / *a0)
+                .collect(),
+            _ => {
+                let ga = spectrum_on_grid(a, self.size);
+                self.channel
+                    .iter()
+                    .zip(gb.iter().zip(&ga))
+                    .map(|(h, (b, a))| h * b / a)
+                    .collect()
+            }
+        };
         let power: Vec<f64> = cascade.iter().map(|c| c.norm_sqr()).collect();
         FftPlanner::<f64>::new()
             .plan_fft_inverse(self.size)
