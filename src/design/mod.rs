@@ -6,13 +6,18 @@
 //! boost more than the cap, the policy picks a substitute and the design says what it costs.
 
 mod boost_cap;
+mod cascade_figures;
 mod cepstral_minimum_phase;
 mod decay;
 mod exact;
+mod fir_under_cap;
+mod judged_band;
+mod knee;
 mod least_squares_fir;
 mod minimum_phase;
 mod notch_cap;
 mod substitute;
+mod trade_off;
 
 use serde::Serialize;
 
@@ -20,13 +25,22 @@ use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
+pub use cascade_figures::{CascadeFigures, CascadeJudge, JUDGED_FRACTION};
 pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, ON_CIRCLE_PULL};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
-pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
+pub use judged_band::judged_band;
+pub use knee::{
+    admissible, choose_knee, judged_residual, KneeChoice, KneeIndices, KNEE_MARGIN_DB,
+    PRE_RINGING_LIMIT_DB, RESIDUAL_FLOOR_DB,
+};
+pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution, FirSystem};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
 pub use notch_cap::{cap_notches, NotchCap};
 pub use substitute::design_inverse;
+pub use trade_off::{
+    taps_for, trade_off, TradeOff, TradeOffRow, LARGEST_LATENCY_MS, LATENCY_LADDER_MS, TAPS_RULE,
+};
 
 /// How an inverse was obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -115,6 +129,8 @@ pub struct InverseDesign {
     /// How the homomorphic route went, when the minimum-phase substitute was built without
     /// roots (long channels).
     pub cepstral: Option<CepstralReport>,
+    /// What the latency-knee method chose and why, when it was the method.
+    pub knee: Option<KneeChoice>,
 }
 
 impl InverseDesign {

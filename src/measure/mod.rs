@@ -14,6 +14,7 @@ mod delay;
 mod equalized_check;
 mod error;
 mod fft;
+mod file_delay;
 mod fir_fit;
 mod fitted_config;
 mod identify;
@@ -36,6 +37,7 @@ pub use band_snr::{
 pub use delay::{find_delay, DelayFound, MIN_PROMINENCE_DB};
 pub use equalized_check::{equalized_error, EqualizedError};
 pub use error::MeasureError;
+pub use file_delay::delay_between_files;
 pub use fir_fit::{fit_fir, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS, MOST_FIR_TAPS};
 pub use fitted_config::{fitted_config, MeasurementSources};
 pub use identify::{identify, ChannelFit, Identification, IdentifySettings};

@@ -68,6 +68,7 @@ pub(crate) const FIR_TAPS: &str = "fir_taps";
 pub(crate) const FIR_DELAY_SAMPLES: &str = "fir_delay_samples";
 pub(crate) const FIR_LATENCY_BUDGET_MS: &str = "fir_latency_budget_ms";
 pub(crate) const FIR_REGULARIZATION: &str = "fir_regularization";
+pub(crate) const LATENCY_BUDGET_MS: &str = "latency_budget_ms";
 pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
     name: "[path.inverse]",
     keys: &[
@@ -79,6 +80,7 @@ pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
         FIR_DELAY_SAMPLES,
         FIR_LATENCY_BUDGET_MS,
         FIR_REGULARIZATION,
+        LATENCY_BUDGET_MS,
     ],
 };
 
