@@ -217,6 +217,13 @@ enum Command {
         /// Frames per callback (default: the config's [audio] buffer_frames, else 256).
         #[arg(long, value_parser = whole_in(1, 65_536))]
         block_frames: Option<u32>,
+        /// Run this many CPU-bound threads at ordinary priority beside the timed callbacks.
+        #[arg(long, default_value_t = 0, value_name = "THREADS", value_parser = whole_in(0, 64))]
+        cpu_load: u32,
+        /// The timed thread asks for SCHED_FIFO at this priority first, as the service's
+        /// callback threads do (0: ordinary priority).
+        #[arg(long, default_value_t = 0, value_name = "PRIORITY", value_parser = whole_in(0, 98))]
+        callback_priority: u32,
         /// Also play a test signal on the output device and find it on the input device (the
         /// output must be looped back to the input).
         #[arg(long)]
@@ -347,6 +354,8 @@ fn main() -> ExitCode {
             recursion_limits,
             blocks,
             block_frames,
+            cpu_load,
+            callback_priority,
             round_trip,
             input_device,
             output_device,
@@ -366,6 +375,7 @@ fn main() -> ExitCode {
                 json,
                 blocks as usize,
                 block_frames.map(|b| b as usize),
+                (cpu_load as usize, callback_priority as u8),
                 round_trip.then_some((input_device, output_device)),
             ),
             (None, None) => exit::INVALID,
@@ -722,6 +732,7 @@ fn bench(
     json: bool,
     blocks: usize,
     block_frames: Option<usize>,
+    (cpu_load_threads, callback_priority): (usize, u8),
     round_trip: Option<(Option<String>, Option<String>)>,
 ) -> u8 {
     use redress::bench::{bench_link, render_text as render_bench, BenchOptions, RoundTripOptions};
@@ -751,6 +762,8 @@ fn bench(
         block_frames,
         round_trip,
         baseline,
+        cpu_load_threads,
+        callback_priority,
     };
     match bench_link(&link, &plan, &options) {
         Ok(report) => {

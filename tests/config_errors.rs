@@ -126,6 +126,11 @@ const CATALOGUE: &[Case] = &[
     case("engine_unknown_key", UnknownKey, 11, Some("engine.crosfade_ms"), "did you mean `crossfade_ms`?"),
     case("audio_buffer_too_small", OutOfRange, 11, Some("audio.buffer_frames"), "from 16 to 16384"),
     case("audio_empty_device", OutOfRange, 11, Some("audio.output_device"), "device name is empty"),
+    case("audio_bad_host", BadChoice, 11, Some("audio.host"), "\"alsa\", \"jack\", \"pipewire\""),
+    case("audio_priority_too_high", OutOfRange, 11, Some("audio.callback_priority"), "from 0 to 98"),
+    case("audio_connect_without_jack", OutOfRange, 11, Some("audio.connect_inputs"), "set host = \"jack\""),
+    case("audio_lock_memory_not_bool", WrongType, 11, Some("audio.lock_memory"), "true or false"),
+    case("audio_bad_clocks", BadChoice, 11, Some("audio.clocks"), "\"shared\""),
 ];
 
 fn fixture(name: &str) -> PathBuf {

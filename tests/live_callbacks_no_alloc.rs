@@ -1,5 +1,6 @@
 //! The live callbacks' real code, called directly without a device: it allocates and frees
-//! nothing (steady running, f32 and i16 devices, buffers longer than the scratch, a filter swap,
+//! nothing (steady running, f32, i16 and 24-bit devices, buffers longer than the scratch, block
+//! sizes changing mid-stream, a filter swap,
 //! ring overruns and underruns), it counts what it drops and fills, and it delivers the
 //! engine's output in order behind the silence prefill.
 
@@ -8,7 +9,11 @@ mod common;
 use assert_no_alloc::{assert_no_alloc, reset_violation_count, violation_count, AllocDisabler};
 use common::{echo_line, inverse_set, resonant_line, sine};
 use redress::engine::{engine_pair, EngineSettings};
-use redress::io::live::{duplex_sides, DeviceSample, PREFILL_PERIODS, RING_PERIODS};
+use redress::io::live::realtime::ThreadScheduling;
+use redress::io::live::{
+    duplex_sides, duplex_sides_two_clocks, DeviceSample, SchedulingRequest, TpdfDither,
+    PREFILL_PERIODS, RING_PERIODS, TWO_CLOCK_TARGET_HALF_PERIODS,
+};
 use std::sync::atomic::Ordering;
 
 #[global_allocator]
@@ -33,6 +38,30 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
 
     let block = sine(PERIOD, CHANNELS, 440.0, 0.3, 0);
     let block_i16 = to_i16(&block);
+    reset_violation_count();
+
+    // The first callbacks ask for real-time scheduling (one system call each) and record what
+    // they got, without allocating; on a thread of their own, so the test thread keeps its
+    // schedule whatever the kernel grants.
+    let asked = SchedulingRequest::Fifo(10);
+    let capture_slot = capture.set_scheduling(asked);
+    let playback_slot = playback.set_scheduling(asked);
+    let first = block.clone();
+    let mut first_out = vec![0.0f32; block.len()];
+    let (mut capture, mut playback) = std::thread::spawn(move || {
+        assert_no_alloc(|| {
+            capture.on_input(&first);
+            playback.on_output(&mut first_out);
+        });
+        (capture, playback)
+    })
+    .join()
+    .unwrap();
+    for slot in [&capture_slot, &playback_slot] {
+        let got = ThreadScheduling::read("callback", asked, slot);
+        assert!(got.policy.is_some(), "the first callback recorded nothing");
+        assert!(got.real_time || got.refused.is_some(), "{got:?}");
+    }
     // Longer than the scratch (one period), shorter than the prefill: the sides must cut it
     // into chunks, and the ring has room for it.
     let long = sine(PERIOD + 100, CHANNELS, 1000.0, 0.2, 0);
@@ -50,6 +79,15 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
             playback.on_output(&mut out);
         });
     }
+    // The playback side meters what it finds waiting: the prefill plus the period the capture
+    // side has just pushed, every time (common practice: the fill a ring's reader sees).
+    let ring = control.snapshot();
+    let expected = (plan.prefill_frames() + PERIOD) as u64;
+    assert_eq!(ring.ring_fill_frames, Some(expected));
+    assert_eq!(
+        (ring.ring_fill_low_frames, ring.ring_fill_high_frames),
+        (Some(expected), Some(expected))
+    );
     for _ in 0..50 {
         assert_no_alloc(|| {
             capture.on_input(&block_i16);
@@ -62,6 +100,49 @@ fn callbacks_allocate_nothing_and_count_overruns_and_underruns() {
         "steady running lost samples"
     );
     assert!(out.iter().any(|v| *v != 0.0) && out_i16.iter().any(|v| *v != 0));
+
+    // A 24-bit device, and a host that changes its block size while running (a graph host
+    // may): 64, 256, 17, 512, 1, … frames per callback, the same on both sides, alternating
+    // f32 and 24-bit buffers. The engine goes on at each new size without allocating or
+    // losing a frame (blocks past the scratch are cut into chunks).
+    let block_i24: Vec<cpal::I24> = to_i16(&block)
+        .iter()
+        .map(|v| cpal::I24::from_f32(v.to_f32()))
+        .collect();
+    let mut out_i24 = vec![<cpal::I24 as DeviceSample>::SILENCE; block_i24.len()];
+    let long_f32 = sine(2 * PERIOD, CHANNELS, 300.0, 0.2, 0);
+    let mut out_long_f32 = vec![0.0f32; long_f32.len()];
+    let long_i24: Vec<cpal::I24> = long_f32.iter().map(|v| cpal::I24::from_f32(*v)).collect();
+    let mut out_long_i24 = vec![<cpal::I24 as DeviceSample>::SILENCE; long_i24.len()];
+    for (i, frames) in [64, 256, 17, 512, 1, 128, 480, 256, 3, 512]
+        .into_iter()
+        .cycle()
+        .take(40)
+        .enumerate()
+    {
+        let n = frames * CHANNELS;
+        assert_no_alloc(|| {
+            if i % 2 == 0 {
+                capture.on_input(&long_f32[..n]);
+                playback.on_output(&mut out_long_f32[..n]);
+            } else {
+                capture.on_input(&long_i24[..n]);
+                playback.on_output(&mut out_long_i24[..n]);
+            }
+        });
+    }
+    for _ in 0..4 {
+        assert_no_alloc(|| {
+            capture.on_input(&block_i24);
+            playback.on_output(&mut out_i24);
+        });
+    }
+    assert_eq!(
+        (overruns(), underruns()),
+        (0, 0),
+        "a change of block size lost samples"
+    );
+    assert!(out_i24.iter().any(|v| v.inner() != 0));
 
     // A filter swap, sent from the control side outside the no-allocation zone.
     control
@@ -200,20 +281,101 @@ fn sides_deliver_the_engine_output_in_order_behind_the_prefill() {
 
         let prefill = plan.prefill_frames() * CHANNELS;
         assert!(played.len() > prefill + 1000);
-        assert!(
-            played[..prefill].iter().all(|v| *v == 0.0),
-            "prefill is silence"
-        );
-        let body = &played[prefill..];
-        let want: Vec<f32> = if device_is_i16 {
-            // The playback device quantizes the engine's output once more.
-            expected[..body.len()]
+        let mut heard = vec![0.0f32; prefill];
+        heard.extend_from_slice(&expected[..played.len() - prefill]);
+        if device_is_i16 {
+            // The playback device quantizes the engine's output once more, with TPDF dither:
+            // within 1.5 steps of the value (rounding's half step plus the dither's one; the
+            // dither's own statistics are checked in `io::live::dither`), and exactly what one
+            // dither value per played sample, in order, gives.
+            let lsb = 1.0 / 32_768.0;
+            for (got, want) in played.iter().zip(&heard) {
+                assert!((got - want).abs() < 1.5 * lsb, "{got} against {want}");
+            }
+            let mut dither = TpdfDither::default();
+            let want: Vec<f32> = heard
                 .iter()
-                .map(|v| i16::from_f32(*v).to_f32())
-                .collect()
+                .map(|v| i16::from_f32_dithered(*v, &mut dither).to_f32())
+                .collect();
+            assert_eq!(played, want, "i16 device");
         } else {
-            expected[..body.len()].to_vec()
-        };
-        assert_eq!(body, &want[..], "i16 device: {device_is_i16}");
+            assert!(
+                played[..prefill].iter().all(|v| *v == 0.0),
+                "prefill is silence"
+            );
+            assert_eq!(played, heard, "f32 device");
+        }
     }
+}
+
+// Source: common practice for real-time audio — the two-clock path (drift loop and resampler,
+// run on the playback thread) allocates nothing once built, also while its ratio moves.
+#[test]
+fn the_drift_loop_and_resampler_allocate_nothing() {
+    use redress::io::live::drift::{DriftLoop, DriftResampler};
+    let mut control = DriftLoop::new(640.0, 48_000.0);
+    let mut resampler = DriftResampler::new(CHANNELS, PERIOD).unwrap();
+    let input = sine(resampler.input_frames_max(), CHANNELS, 440.0, 0.3, 0);
+    let mut out = vec![0.0f32; PERIOD * CHANNELS];
+    // No reset: the other tests of this binary run beside this one and keep their own count.
+    let before = violation_count();
+    for i in 0..200 {
+        assert_no_alloc(|| {
+            let ratio = control.update(600.0 + f64::from(i % 80), PERIOD as f64 / 48_000.0);
+            resampler.set_ratio(ratio);
+            let need = resampler.input_frames_next() * CHANNELS;
+            assert!(resampler.process(&input[..need], &mut out));
+        });
+    }
+    assert_eq!(
+        violation_count(),
+        before,
+        "the drift path allocated or freed"
+    );
+    assert!(out.iter().any(|v| *v != 0.0));
+}
+
+// Source: common practice for real-time audio — with two clocks the playback side reads the
+// ring through the drift loop and its resampler: still nothing allocated, across block sizes
+// that do not match the resampler's period, and the drift estimate is published for `status`.
+#[test]
+fn two_clock_sides_allocate_nothing_and_publish_the_drift() {
+    let settings = EngineSettings::defaults(CHANNELS, 48_000.0);
+    let (engine, control) = engine_pair(settings, Some(inverse_set(&echo_line(), CHANNELS, 1)));
+    let (mut capture, mut playback, plan) =
+        duplex_sides_two_clocks(engine, control.stats(), PERIOD, 48_000.0).unwrap();
+    assert!(plan.two_clocks);
+    assert_eq!(
+        plan.prefill_frames(),
+        TWO_CLOCK_TARGET_HALF_PERIODS * PERIOD / 2
+    );
+    let input = sine(PERIOD, CHANNELS, 440.0, 0.3, 0);
+    let mut out = vec![0.0f32; PERIOD * CHANNELS];
+    let mut odd = vec![0.0f32; 100 * CHANNELS];
+    let before = violation_count();
+    for i in 0..100 {
+        assert_no_alloc(|| {
+            capture.on_input(&input);
+            if i % 3 == 0 {
+                // 100 + 156 frames: two device calls for one period of the resampler.
+                playback.on_output(&mut odd);
+                playback.on_output(&mut out[..156 * CHANNELS]);
+            } else {
+                playback.on_output(&mut out);
+            }
+        });
+    }
+    assert_eq!(
+        violation_count(),
+        before,
+        "the two-clock sides allocated or freed"
+    );
+    let snap = control.snapshot();
+    assert_eq!((snap.input_overruns, snap.output_underruns), (0, 0));
+    let ppm = snap.drift_ppm.expect("the drift estimate is published");
+    assert!(
+        ppm.abs() <= redress::io::live::drift::MAX_DRIFT_PPM,
+        "{ppm}"
+    );
+    assert!(out.iter().any(|v| *v != 0.0));
 }

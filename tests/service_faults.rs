@@ -13,7 +13,7 @@ use std::process::Command;
 use std::time::Duration;
 
 use serde_json::Value;
-use service_support::{start, temp_dir, u, Service, BROKEN, LINK_A, LINK_B};
+use service_support::{example_unit_value, start, temp_dir, u, Service, BROKEN, LINK_A, LINK_B};
 
 fn generation_running(d: &Value) -> u64 {
     d.pointer("/engine/running_generation")
@@ -345,16 +345,7 @@ fn running_as_root_is_warned_about() {
 // to run as an ordinary user in the audio group.
 #[test]
 fn the_example_unit_runs_unprivileged_and_hardened() {
-    let unit = std::fs::read_to_string(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("configs/systemd/redress.service"),
-    )
-    .unwrap();
-    let value = |key: &str| {
-        unit.lines()
-            .map(str::trim)
-            .find_map(|l| l.strip_prefix(&format!("{key}=")))
-            .map(str::to_string)
-    };
+    let value = |key: &str| example_unit_value("redress.service", key);
     let user = value("User").expect("User=");
     assert!(!user.is_empty() && user != "root" && user != "0", "{user}");
     for (key, expected) in [
@@ -371,5 +362,28 @@ fn the_example_unit_runs_unprivileged_and_hardened() {
         ("ExecReload", "/bin/kill -HUP $MAINPID"),
     ] {
         assert_eq!(value(key).as_deref(), Some(expected), "{key}");
+    }
+}
+
+// Source: systemd.exec(5) — LimitRTPRIO= and LimitMEMLOCK= set RLIMIT_RTPRIO and
+// RLIMIT_MEMLOCK, and RestrictRealtime=yes refuses real-time scheduling whatever the limit;
+// sched(7) — an unprivileged thread may take SCHED_FIFO up to RLIMIT_RTPRIO.
+#[test]
+fn every_example_unit_allows_the_default_callback_priority_and_locked_memory() {
+    for name in [
+        "redress.service",
+        "redress-user.service",
+        "redress@.service",
+    ] {
+        let value = |key: &str| example_unit_value(name, key);
+        let rtprio: u8 = value("LimitRTPRIO")
+            .and_then(|v| v.parse().ok())
+            .unwrap_or_else(|| panic!("{name}: LimitRTPRIO= missing or not a number"));
+        assert!(
+            rtprio >= redress::model::DEFAULT_CALLBACK_PRIORITY,
+            "{name}: LimitRTPRIO={rtprio}"
+        );
+        assert_eq!(value("LimitMEMLOCK").as_deref(), Some("infinity"), "{name}");
+        assert_ne!(value("RestrictRealtime").as_deref(), Some("yes"), "{name}");
     }
 }

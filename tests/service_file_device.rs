@@ -11,7 +11,7 @@ mod service_support;
 
 use std::path::Path;
 
-use service_support::{start, temp_dir, LINK_A};
+use service_support::{start, temp_dir, LINK_A, UNPACED};
 
 const CHANNELS: usize = 2;
 const SIGNAL_FRAMES: usize = 6000;
@@ -56,7 +56,7 @@ fn live_binary_matches_offline_apply() {
     let config = dir.join("link.toml");
     std::fs::write(
         &config,
-        format!("{LINK_A}\n[audio]\nbuffer_frames = 4096\n\n[engine]\nfade_in_ms = 0.1\n"),
+        format!("{LINK_A}\n[audio]\nbuffer_frames = 4096\n{UNPACED}\n[engine]\nfade_in_ms = 0.1\n"),
     )
     .unwrap();
     let mut input = noise(SIGNAL_FRAMES);

@@ -11,7 +11,7 @@ use std::time::{Duration, Instant};
 
 use serde_json::Value;
 
-use service_support::{start, temp_dir, u, Service, BROKEN, LINK_A};
+use service_support::{start, temp_dir, u, Service, BROKEN, LINK_A, UNPACED};
 
 fn redress(args: &[&str], env: &[(&str, &Path)]) -> std::process::Output {
     let mut command = Command::new(env!("CARGO_BIN_EXE_redress"));
@@ -31,7 +31,7 @@ fn the_caution_is_logged_once_before_devices_and_not_for_a_simulation() {
     let config = dir.join("link.toml");
     std::fs::write(
         &config,
-        format!("{LINK_A}\n[audio]\nbuffer_frames = 4096\n\n[engine]\nfade_in_ms = 0.1\n"),
+        format!("{LINK_A}\n[audio]\nbuffer_frames = 4096\n{UNPACED}\n[engine]\nfade_in_ms = 0.1\n"),
     )
     .unwrap();
     let silence = dir.join("capture.raw");

@@ -13,6 +13,7 @@
 mod algorithmic_latency;
 mod callback_timing;
 mod chain_calibration;
+mod cpu_load;
 mod long_fir;
 mod recursion_limits;
 mod render;
@@ -23,6 +24,7 @@ use serde::Serialize;
 pub use algorithmic_latency::{channel_latencies, ChannelLatency};
 pub use callback_timing::{percentile, time_callbacks, CallbackTiming};
 pub use chain_calibration::{calibrate_chains, ChainCalibration};
+pub use cpu_load::{run_timed, CpuLoad, TimingConditions};
 pub use long_fir::{bench_long_firs, invented_long_fir, render_long_firs, LongFirTiming};
 pub use recursion_limits::{
     bench_noise, invented_inverse, measure_recursion_limits, render_recursion_limits,
@@ -50,6 +52,11 @@ pub struct BenchOptions {
     pub round_trip: Option<RoundTripOptions>,
     /// Another link to time in the same run, at the same block size, per channel.
     pub baseline: Option<Link>,
+    /// Busy threads at ordinary priority beside every timed run (0: none).
+    pub cpu_load_threads: usize,
+    /// `SCHED_FIFO` priority the timed thread asks for, as a device callback thread would
+    /// (0: none).
+    pub callback_priority: u8,
 }
 
 /// The config's callback time per channel against another config's, timed in the same run
@@ -84,6 +91,8 @@ pub struct BenchReport {
     /// Where the block size came from: `config`, `option` or `default`.
     pub block_frames_from: &'static str,
     pub callback: CallbackTiming,
+    /// The load beside the timed runs and the timed thread's scheduling.
+    pub conditions: TimingConditions,
     pub channels: Vec<ChannelLatency>,
     pub live_path: LivePathLatency,
     pub round_trip: Option<RoundTrip>,
@@ -106,16 +115,16 @@ pub fn bench_link(
     };
     let block_frames = block_frames.max(1);
     let blocks = options.blocks.max(1);
-    let time = |eq: &Equalizer, l: &Link| {
-        time_callbacks(
-            eq.clone(),
-            &l.runtime.engine,
-            l.sample_rate,
-            block_frames,
-            blocks,
+    let time_with_conditions = |eq: &Equalizer, l: &Link| {
+        let (eq, engine, rate) = (eq.clone(), l.runtime.engine.clone(), l.sample_rate);
+        run_timed(
+            options.callback_priority,
+            options.cpu_load_threads,
+            move || time_callbacks(eq, &engine, rate, block_frames, blocks),
         )
     };
-    let mut callback = time(&equalizer, link);
+    let time = |eq: &Equalizer, l: &Link| time_with_conditions(eq, l).0;
+    let (mut callback, conditions) = time_with_conditions(&equalizer, link);
     let baseline = match &options.baseline {
         None => None,
         Some(other) => {
@@ -146,6 +155,7 @@ pub fn bench_link(
     let ring = RingPlan {
         period_frames: block_frames,
         channels: link.channel_count,
+        two_clocks: false,
     };
     let max_latency = channels
         .iter()
@@ -173,6 +183,7 @@ pub fn bench_link(
         source: link.source.as_ref().map(|p| p.display().to_string()),
         block_frames_from: from,
         callback,
+        conditions,
         channels,
         live_path,
         round_trip,

@@ -43,6 +43,18 @@ pub fn render_text(r: &BenchReport) -> String {
         if c.real_time_factor > 0.0 { 1.0 / c.real_time_factor } else { f64::INFINITY }
     );
     let _ = writeln!(s, "  deadline misses   {:>10}", c.deadline_misses);
+    let load = match r.conditions.cpu_load_threads {
+        0 => "no load made by the bench".to_string(),
+        n => format!("{n} CPU-bound thread(s) at ordinary priority beside it"),
+    };
+    let _ = writeln!(
+        s,
+        "  conditions        {load}; {}",
+        r.conditions.scheduling.summary()
+    );
+    if let Some(help) = &r.conditions.scheduling.help {
+        let _ = writeln!(s, "                    help: {help}");
+    }
     if let Some(share) = c.cpu_share_pct {
         let _ = writeln!(
             s,

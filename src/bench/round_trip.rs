@@ -69,6 +69,7 @@ pub fn measure_round_trip(options: &RoundTripOptions) -> Result<RoundTrip, LiveE
             sample_rate: options.sample_rate,
             channels: options.channels,
             buffer_frames: options.buffer_frames,
+            ..DeviceRequest::default()
         },
         signal: signal.clone(),
         level: LEVEL,

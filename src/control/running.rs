@@ -9,8 +9,8 @@ use super::totals::EngineCounters;
 use super::ServiceError;
 use crate::engine::{engine_pair, EngineControl, EngineSettings, Equalizer};
 use crate::io::live::{
-    start_duplex, DeviceRequest, DuplexStreams, StreamErrorCounts, StreamErrorKind,
-    StreamErrorTally,
+    lock_process_memory, request_for_priority, start_duplex, DeviceRequest, DuplexStreams,
+    RealtimeStatus, StreamErrorCounts, StreamErrorKind, StreamErrorTally,
 };
 use crate::io::paced_link::{Alignment, PacedLink};
 use crate::model::{AudioSettings, EngineOptions, Link};
@@ -66,6 +66,8 @@ pub struct RunningAudio {
     pub engine_options: EngineOptions,
     description: String,
     block_frames: Option<usize>,
+    /// Whether what the audio threads got has been logged.
+    realtime_logged: bool,
     /// When these streams were opened, and the drill they run under, if any.
     opened: Instant,
     drill: Option<ArmedDrill>,
@@ -111,8 +113,17 @@ impl RunningAudio {
                     .buffer_frames
                     .map_or(DEFAULT_SIMULATED_BLOCK, |b| b as usize);
                 let alignment = alignment(truth, plan);
-                let paced = PacedLink::start(truth, engine, block, alignment, *seed)
-                    .map_err(ServiceError::Simulation)?;
+                let audio = &link.runtime.audio;
+                let paced = PacedLink::start(
+                    truth,
+                    engine,
+                    block,
+                    alignment,
+                    *seed,
+                    request_for_priority(audio.callback_priority),
+                    lock_process_memory(audio.lock_memory),
+                )
+                .map_err(ServiceError::Simulation)?;
                 let description = match &truth.source {
                     Some(p) => format!("real-time simulation of the link in {}", p.display()),
                     None => "real-time simulation of the configured link".to_string(),
@@ -126,6 +137,10 @@ impl RunningAudio {
                     sample_rate: link.sample_rate.round() as u32,
                     channels: link.channel_count as u16,
                     buffer_frames: link.runtime.audio.buffer_frames,
+                    callback_priority: link.runtime.audio.callback_priority,
+                    lock_memory: link.runtime.audio.lock_memory,
+                    host: link.runtime.audio.host,
+                    clocks: link.runtime.audio.clocks,
                 };
                 let streams = start_duplex(&request, engine, control.stats())
                     .map_err(|e| ServiceError::Audio(e.to_string()))?;
@@ -154,6 +169,7 @@ impl RunningAudio {
             engine_options: link.runtime.engine.clone(),
             description,
             block_frames,
+            realtime_logged: false,
             opened,
             drill,
             stalled: false,
@@ -203,6 +219,58 @@ impl RunningAudio {
             recoveries: 0,
             last_loss: None,
             last_retry_error: None,
+            host: self.host().to_string(),
+            runs_as: self.runs_as().to_string(),
+            realtime: Some(self.realtime()),
+        }
+    }
+
+    /// The audio system driving the engine: the config's host key, or "simulated".
+    fn host(&self) -> &'static str {
+        match &self.driver {
+            Driver::Devices(_) => self.audio.host.key(),
+            Driver::Simulated(_) => "simulated",
+        }
+    }
+
+    /// How the engine meets the devices: "ring" (a capture and a playback callback with a
+    /// ring between them) or "one_callback" (capture, engine and playback in one call).
+    fn runs_as(&self) -> &'static str {
+        match &self.driver {
+            Driver::Devices(_) => "ring",
+            Driver::Simulated(_) => "one_callback",
+        }
+    }
+
+    /// What the audio threads run at, and whether memory is locked.
+    pub fn realtime(&self) -> RealtimeStatus {
+        match &self.driver {
+            Driver::Devices(d) => d.realtime().status(),
+            Driver::Simulated(p) => p.realtime().status(),
+        }
+    }
+
+    /// Logs what the audio threads got, once all of them have run: a refusal as a warning with
+    /// what to change (the audio runs on regardless).
+    pub fn log_realtime_once(&mut self) {
+        if self.realtime_logged {
+            return;
+        }
+        let started = match &self.driver {
+            Driver::Devices(d) => d.realtime().all_started(),
+            Driver::Simulated(p) => p.realtime().all_started(),
+        };
+        if !started {
+            return;
+        }
+        self.realtime_logged = true;
+        let status = self.realtime();
+        for (line, warn) in status.log_lines() {
+            if warn {
+                log::warn!("real-time: {line}");
+            } else {
+                log::info!("real-time: {line}");
+            }
         }
     }
 

@@ -379,6 +379,7 @@ impl Service {
             return;
         };
         audio.control.collect_returned();
+        audio.log_realtime_once();
         let errors = audio.stream_error_count();
         // At most one line a second: a failing backend can report thousands of errors a tick.
         let quiet = self

@@ -4,6 +4,7 @@ use serde::Serialize;
 use serde_json::Value;
 
 use crate::engine::StatsSnapshot;
+use crate::io::live::RealtimeStatus;
 use crate::pipeline::LinkPlan;
 
 /// Everything `redress status` shows. Rendered to JSON by the control thread; the socket only
@@ -55,6 +56,13 @@ pub struct AudioStatus {
     /// How the last loss was seen, and the last failed attempt to reopen, if any.
     pub last_loss: Option<String>,
     pub last_retry_error: Option<String>,
+    /// "alsa", "jack", "pipewire" or "simulated".
+    pub host: String,
+    /// "ring" (capture and playback callbacks with a ring between) or "one_callback".
+    pub runs_as: String,
+    /// What the audio threads run at (policy, priority, or why real-time was refused) and
+    /// whether memory is locked.
+    pub realtime: Option<RealtimeStatus>,
 }
 
 #[derive(Debug, Clone, Default, Serialize)]
@@ -161,6 +169,55 @@ pub fn render_status_text(doc: &Value) -> String {
             .map(|b| format!(", {b}-frame blocks"))
             .unwrap_or_default()
     ));
+    if let Some(host) = audio["host"].as_str() {
+        let how = match audio["runs_as"].as_str() {
+            Some("one_callback") => "capture, engine and playback in one callback, no ring",
+            Some("ring") => "a capture and a playback callback with a ring between them",
+            _ => "?",
+        };
+        out.push_str(&format!("host         {host}: {how}\n"));
+    }
+    if let Some(rt) = audio["realtime"].as_object() {
+        let mut lines: Vec<String> = Vec::new();
+        for t in rt
+            .get("threads")
+            .and_then(Value::as_array)
+            .into_iter()
+            .flatten()
+        {
+            let runs = match (t["policy"].as_str(), t["priority"].as_i64()) {
+                (None, _) => "not started yet".to_string(),
+                (Some(p), Some(prio)) if t["real_time"].as_bool() == Some(true) => {
+                    format!("{p} at priority {prio}")
+                }
+                (Some(p), _) => format!("{p}, ordinary priority"),
+            };
+            let asked = match (t["asked_priority"].as_u64(), t["decided_by"].as_str()) {
+                (Some(a), _) => format!(" (asked for {a})"),
+                (None, Some("server")) => " (set by the sound server)".to_string(),
+                _ => " (nothing asked)".to_string(),
+            };
+            lines.push(format!("{}: {runs}{asked}", s(&t["thread"])));
+            if let Some(why) = t["refused"].as_str() {
+                lines.push(format!("  REFUSED: {why}"));
+            }
+            if let Some(help) = t["help"].as_str() {
+                lines.push(format!("  help: {help}"));
+            }
+        }
+        let memory = &rt["memory"];
+        lines.push(format!(
+            "memory locked: {}",
+            s(&memory["locked"]).replace('_', " ")
+        ));
+        if let Some(why) = memory["refused"].as_str() {
+            lines.push(format!("  {why}"));
+        }
+        if let Some(help) = memory["help"].as_str() {
+            lines.push(format!("  help: {help}"));
+        }
+        out.push_str(&format!("real-time    {}\n", lines.join("\n             ")));
+    }
     if audio["state"].as_str() == Some("recovering") {
         out.push_str(&format!(
             "             DEVICES LOST, reopening with back-off: {}{}\n",
@@ -197,6 +254,26 @@ pub fn render_status_text(doc: &Value) -> String {
         u(&engine["output_underruns"]),
         u(&audio["stream_errors"])
     ));
+    if let Some(ppm) = engine["drift_ppm"].as_f64() {
+        out.push_str(&format!(
+            "clocks       two: playback runs {ppm:+.1} ppm against capture (estimated); the \
+             output is resampled to hold the ring\n"
+        ));
+    }
+    if let Some(fill) = engine["ring_fill_frames"].as_u64() {
+        let range = match (
+            engine["ring_fill_low_frames"].as_u64(),
+            engine["ring_fill_high_frames"].as_u64(),
+        ) {
+            (Some(low), Some(high)) => {
+                format!(", {low} to {high} since the previous reading (a second at most)")
+            }
+            _ => String::new(),
+        };
+        out.push_str(&format!(
+            "ring         {fill} frame(s) waiting before the latest playback callback{range}\n"
+        ));
+    }
     out.push_str(&format!(
         "guards       {} clipped sample(s), {} limited, {} instability trip(s) ({} non-finite), \
          fallbacks: {} to last good, {} to bypass{}\n",

@@ -12,6 +12,12 @@ use crate::model::MAX_CHANNELS;
 /// Number of buckets of the callback-time histogram (each a quarter octave, from 1 µs).
 pub const TIME_BUCKETS: usize = 64;
 
+/// [`EngineStats::ring_fill`] and `ring_fill_low` before any pull was seen.
+const NO_FILL: u64 = u64::MAX;
+/// [`EngineStats::drift_ppm`] while nothing is resampled (the bits of no f64 the loop makes:
+/// they are a NaN).
+const NO_DRIFT: u64 = u64::MAX;
+
 #[derive(Debug)]
 pub struct EngineStats {
     pub frames: AtomicU64,
@@ -41,6 +47,16 @@ pub struct EngineStats {
     /// Input-side and output-side device trouble, counted by the I/O layer.
     pub input_overruns: AtomicU64,
     pub output_underruns: AtomicU64,
+    /// Frames in the ring between the callbacks as the playback side found it before its
+    /// latest pull, and the lowest and highest such fill since the control thread last read
+    /// them (`NO_FILL` / 0 when no pull happened since). The lowest is the margin the ring
+    /// really kept against the two callbacks' order; none of this is written without a ring.
+    pub ring_fill: AtomicU64,
+    pub ring_fill_low: AtomicU64,
+    pub ring_fill_high: AtomicU64,
+    /// The two-clock loop's drift estimate, ppm, as f64 bits (`NO_DRIFT`: one clock, nothing
+    /// resampled).
+    pub drift_ppm: AtomicU64,
     /// Per-channel peak |x| and |y| since the control thread last read them (f32 bits; for
     /// non-negative floats the bit patterns order like the values, so fetch_max works).
     pub input_peak: [AtomicU32; MAX_CHANNELS],
@@ -73,6 +89,10 @@ impl Default for EngineStats {
             running_generation: AtomicU64::new(0),
             input_overruns: AtomicU64::new(0),
             output_underruns: AtomicU64::new(0),
+            ring_fill: AtomicU64::new(NO_FILL),
+            ring_fill_low: AtomicU64::new(NO_FILL),
+            ring_fill_high: AtomicU64::new(0),
+            drift_ppm: AtomicU64::new(NO_DRIFT),
             input_peak: std::array::from_fn(|_| AtomicU32::new(0)),
             output_peak: std::array::from_fn(|_| AtomicU32::new(0)),
             callback_time: std::array::from_fn(|_| AtomicU64::new(0)),
@@ -102,6 +122,14 @@ pub struct StatsSnapshot {
     pub running_generation: u64,
     pub input_overruns: u64,
     pub output_underruns: u64,
+    /// Ring fill in frames before the playback side's latest pull, and its lowest and highest
+    /// since the previous snapshot; `None` without a ring (or before the first pull).
+    pub ring_fill_frames: Option<u64>,
+    pub ring_fill_low_frames: Option<u64>,
+    pub ring_fill_high_frames: Option<u64>,
+    /// Estimated clock difference, ppm (playback faster than capture when positive); `None`
+    /// when both directions share one clock and nothing is resampled.
+    pub drift_ppm: Option<f64>,
     /// Peak levels since the previous snapshot, dBFS, per channel.
     pub input_peak_dbfs: Vec<f64>,
     pub output_peak_dbfs: Vec<f64>,
@@ -125,6 +153,19 @@ impl EngineStats {
             .fetch_max(nanos, Ordering::Relaxed);
         self.callback_time_total_ns
             .fetch_add(nanos, Ordering::Relaxed);
+    }
+
+    /// Notes the ring's fill (frames) as the playback side finds it before a pull.
+    pub fn record_ring_fill(&self, frames: u64) {
+        self.ring_fill.store(frames, Ordering::Relaxed);
+        self.ring_fill_low.fetch_min(frames, Ordering::Relaxed);
+        self.ring_fill_high.fetch_max(frames, Ordering::Relaxed);
+    }
+
+    /// Publishes the two-clock loop's drift estimate (ppm).
+    #[inline]
+    pub fn record_drift_ppm(&self, ppm: f64) {
+        self.drift_ppm.store(ppm.to_bits(), Ordering::Relaxed);
     }
 
     /// Raises the per-channel peak meters.
@@ -159,6 +200,8 @@ impl EngineStats {
         };
         // Bucket upper edges can overshoot the exact maximum: never report a percentile above it.
         let max_us = load(&self.callback_time_max_ns) as f64 / 1000.0;
+        let seen = |frames: u64| (frames != NO_FILL).then_some(frames);
+        let low_unseen = self.ring_fill_low.load(Ordering::Relaxed) == NO_FILL;
         StatsSnapshot {
             frames: load(&self.frames),
             clipped_samples: load(&self.clipped_samples),
@@ -177,6 +220,16 @@ impl EngineStats {
             running_generation: load(&self.running_generation),
             input_overruns: load(&self.input_overruns),
             output_underruns: load(&self.output_underruns),
+            ring_fill_frames: seen(self.ring_fill.load(Ordering::Relaxed)),
+            ring_fill_low_frames: seen(self.ring_fill_low.swap(NO_FILL, Ordering::Relaxed)),
+            ring_fill_high_frames: match self.ring_fill_high.swap(0, Ordering::Relaxed) {
+                0 if low_unseen => None,
+                high => Some(high),
+            },
+            drift_ppm: match self.drift_ppm.load(Ordering::Relaxed) {
+                NO_DRIFT => None,
+                bits => Some(f64::from_bits(bits)).filter(|p| p.is_finite()),
+            },
             input_peak_dbfs: (0..channels)
                 .map(|c| dbfs(self.input_peak[c].swap(0, Ordering::Relaxed)))
                 .collect(),
@@ -187,5 +240,38 @@ impl EngineStats {
             callback_p99_us: percentile(0.99).min(max_us),
             callback_max_us: max_us,
         }
+    }
+}
+
+#[cfg(test)]
+mod ring_fill_tests {
+    use super::*;
+
+    // Common practice for a level meter read by another thread: the last value stays, the
+    // lowest and highest restart with each read, and "nothing seen" is not a fill of 0.
+    #[test]
+    fn the_ring_meter_keeps_the_last_fill_and_restarts_its_range_on_each_read() {
+        let stats = EngineStats::default();
+        let first = stats.snapshot(1);
+        assert_eq!(first.ring_fill_frames, None);
+        assert_eq!(
+            (first.ring_fill_low_frames, first.ring_fill_high_frames),
+            (None, None)
+        );
+        for fill in [128, 64, 192, 0, 96] {
+            stats.record_ring_fill(fill);
+        }
+        let s = stats.snapshot(1);
+        assert_eq!(s.ring_fill_frames, Some(96));
+        assert_eq!(
+            (s.ring_fill_low_frames, s.ring_fill_high_frames),
+            (Some(0), Some(192))
+        );
+        let quiet = stats.snapshot(1);
+        assert_eq!(quiet.ring_fill_frames, Some(96));
+        assert_eq!(
+            (quiet.ring_fill_low_frames, quiet.ring_fill_high_frames),
+            (None, None)
+        );
     }
 }

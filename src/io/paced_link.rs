@@ -10,6 +10,7 @@ use std::sync::Arc;
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
+use super::live::{CallbackScheduling, MemoryLock, SchedulingRequest, SchedulingWatch};
 use super::programme::{generate, ProgrammeSpec};
 use super::simulated_link::{SimulatedLink, SimulationError};
 use crate::engine::Engine;
@@ -150,16 +151,21 @@ pub struct PacedLink {
     thread: Option<JoinHandle<()>>,
     figures: Arc<PacedFigures>,
     pub block_frames: usize,
+    scheduling: SchedulingWatch,
 }
 
 impl PacedLink {
-    /// Starts the thread. `block_frames` is the simulated device buffer.
+    /// Starts the thread. `block_frames` is the simulated device buffer. The thread stands in
+    /// for a device's callback thread: it makes `request` on its first block, as one would
+    /// (the memory lock, already taken or refused, is reported with it).
     pub fn start(
         link: &Link,
         engine: Engine,
         block_frames: usize,
         alignment: Alignment,
         seed: u64,
+        request: SchedulingRequest,
+        memory: MemoryLock,
     ) -> Result<Self, PacedLinkError> {
         let simulated = SimulatedLink::new(link).map_err(PacedLinkError::Simulation)?;
         let channels = link.channel_count;
@@ -171,7 +177,11 @@ impl PacedLink {
         ));
         let stop = Arc::new(AtomicBool::new(false));
         let figures = Arc::new(PacedFigures::default());
+        let callback = CallbackScheduling::new(request);
+        let mut scheduling = SchedulingWatch::new(memory);
+        scheduling.add("simulated link and engine", request, callback.slot());
         let runner = Runner {
+            scheduling: callback,
             simulated,
             engine,
             programme,
@@ -193,7 +203,13 @@ impl PacedLink {
             thread: Some(thread),
             figures,
             block_frames,
+            scheduling,
         })
+    }
+
+    /// What the link's thread runs at, and whether memory is locked.
+    pub fn realtime(&self) -> &SchedulingWatch {
+        &self.scheduling
     }
 
     pub fn figures(&self) -> Arc<PacedFigures> {
@@ -216,6 +232,7 @@ impl Drop for PacedLink {
 }
 
 struct Runner {
+    scheduling: CallbackScheduling,
     simulated: SimulatedLink,
     engine: Engine,
     programme: Vec<f32>,
@@ -253,6 +270,7 @@ impl Runner {
             (SETTLE_SECONDS / self.period.as_secs_f64()).ceil() as u64 * self.block_frames as u64;
         let mut deadline = Instant::now();
         while !self.stop.load(Ordering::Acquire) {
+            self.scheduling.on_callback();
             for f in 0..self.block_frames {
                 let src = ((position + f) % total_frames.max(1)) * self.channels;
                 original[f * self.channels..(f + 1) * self.channels]

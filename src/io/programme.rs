@@ -118,17 +118,20 @@ fn channel_material(rate: f64, frames: usize, random: &mut SplitMix64) -> Vec<f6
     out
 }
 
-/// SplitMix64: a tiny, well-known generator whose sequence is fixed by its definition.
-struct SplitMix64 {
+/// SplitMix64: a tiny, well-known generator whose sequence is fixed by its definition (also the
+/// live layer's dither source: no allocation, a few integer operations per number).
+#[derive(Debug, Clone)]
+pub(crate) struct SplitMix64 {
     state: u64,
 }
 
 impl SplitMix64 {
-    fn new(seed: u64) -> Self {
+    pub(crate) fn new(seed: u64) -> Self {
         Self { state: seed }
     }
 
-    fn next(&mut self) -> u64 {
+    #[inline]
+    pub(crate) fn next(&mut self) -> u64 {
         self.state = self.state.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.state;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -137,7 +140,8 @@ impl SplitMix64 {
     }
 
     /// Uniform in [0, 1).
-    fn unit(&mut self) -> f64 {
+    #[inline]
+    pub(crate) fn unit(&mut self) -> f64 {
         (self.next() >> 11) as f64 / (1u64 << 53) as f64
     }
 

@@ -31,10 +31,16 @@
 //! fir_delay_samples = 32        # … or fix it (not both)
 //! fir_regularization = 0        # least_squares_fir only, ≥ 0
 //!
-//! [audio]                       # optional; devices of the live service
+//! [audio]                       # optional; devices of the live service (defaults shown)
+//! host = "alsa"                 # "alsa" | "jack" | "pipewire"
 //! input_device = "default"      # "default", a device id, or part of a device name
 //! output_device = "default"
 //! buffer_frames = 256           # optional, 16..=16384
+//! callback_priority = 70        # SCHED_FIFO priority asked for, 0..=98 (0: ask nothing)
+//! lock_memory = true            # mlockall where the limits allow
+//! clocks = "auto"               # "auto" | "shared" | "separate" (resample against drift)
+//! connect_inputs = []           # host = "jack" only: ports feeding the inputs, in order
+//! connect_outputs = []          # host = "jack" only: ports the outputs feed, in order
 //!
 //! [engine]                      # optional; guards of the live service (defaults shown)
 //! crossfade_ms = 20

@@ -17,7 +17,9 @@ pub use policy::{
     DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, DEFAULT_KNEE_BUDGET_SECONDS, MAX_FIR_TAPS,
     MAX_KNEE_BUDGET_MS,
 };
-pub use runtime::{AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings};
+pub use runtime::{
+    AudioHost, AudioSettings, ClipPolicy, Clocks, EngineOptions, Fallback, RuntimeSettings,
+};
 pub use transfer::TransferFunction;
 
 /// Most coefficients a numerator or denominator may have (order + 1): a measured response of
@@ -34,6 +36,13 @@ pub const MAX_CHANNELS: usize = 64;
 /// Device buffers outside this range (frames) are refused: below it no device keeps up, above
 /// it the latency is no longer that of a live link.
 pub const BUFFER_FRAMES_RANGE: (u32, u32) = (16, 16_384);
+/// Real-time priority the live service's callback threads ask for unless the config says
+/// otherwise: above a desktop's ordinary work and interrupt threads, below the kernel's own
+/// real-time threads (common practice for audio: 70–80).
+pub const DEFAULT_CALLBACK_PRIORITY: u8 = 70;
+/// Highest priority a config may ask for (sched(7): SCHED_FIFO runs 1–99; 99 is left to the
+/// kernel's watchdog threads).
+pub const MAX_CALLBACK_PRIORITY: u8 = 98;
 
 /// The config format this build reads and `redress identify` writes (`[link] format_version`).
 /// A config without the key is taken to be this format; a newer one is refused, since a key it

@@ -38,6 +38,11 @@ channels = [0, 1]
 difference_equation = { b = [1.0, -0.5, 0.2], a = [1.0, -0.25] }
 "#;
 
+/// `[audio]` keys for ALSA's unpaced file devices: they run as fast as the processor allows,
+/// so their callback threads must stay at ordinary priority (a real-time thread that never
+/// waits would take a core from everything else until the kernel's throttle stops it).
+pub const UNPACED: &str = "callback_priority = 0\nlock_memory = false\n";
+
 /// A config that does not parse (the value of `b` is cut off).
 pub const BROKEN: &str = "[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n[[path]]\nchannels = [0, 1]\ndifference_equation = { b = [1.0, \n";
 
@@ -214,4 +219,18 @@ pub fn temp_dir(name: &str) -> ScratchDir {
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("temp dir");
     ScratchDir(dir)
+}
+
+/// The value of `Key=` in the example systemd unit `configs/systemd/NAME`, if it is set.
+pub fn example_unit_value(name: &str, key: &str) -> Option<String> {
+    let unit = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("configs/systemd")
+            .join(name),
+    )
+    .unwrap_or_else(|e| panic!("configs/systemd/{name}: {e}"));
+    unit.lines()
+        .map(str::trim)
+        .find_map(|l| l.strip_prefix(&format!("{key}=")))
+        .map(str::to_string)
 }

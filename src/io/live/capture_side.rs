@@ -6,7 +6,9 @@ use std::sync::Arc;
 use ringbuf::traits::{Observer, Producer};
 use ringbuf::HeapProd;
 
+use super::drift_stage::PushClock;
 use super::playout::PlayoutProgress;
+use super::realtime::{CallbackScheduling, LeftBecause, SchedulingRequest, SchedulingSlot};
 use super::samples::DeviceSample;
 use crate::engine::{Engine, EngineStats};
 
@@ -22,6 +24,10 @@ pub struct CaptureSide {
     ring: HeapProd<f32>,
     stats: Arc<EngineStats>,
     playout: Arc<PlayoutProgress>,
+    /// Asks for real-time scheduling on the first call, and records what the thread got.
+    scheduling: CallbackScheduling,
+    /// Stamped after every push when the playback side resamples for two clocks.
+    push_clock: Option<Arc<PushClock>>,
 }
 
 impl CaptureSide {
@@ -42,7 +48,21 @@ impl CaptureSide {
             ring,
             stats,
             playout,
+            scheduling: CallbackScheduling::new(SchedulingRequest::LeaveAsIs(LeftBecause::Config)),
+            push_clock: None,
         }
+    }
+
+    /// Stamps `clock` after every push (two clocks: the playback side's loop reads it).
+    pub(super) fn set_push_clock(&mut self, clock: Arc<PushClock>) {
+        self.push_clock = Some(clock);
+    }
+
+    /// What this callback's thread asks for on its first call (nothing, by default); returns
+    /// where it records what it got. Call before the side is handed to a stream.
+    pub fn set_scheduling(&mut self, request: SchedulingRequest) -> Arc<SchedulingSlot> {
+        self.scheduling = CallbackScheduling::new(request);
+        self.scheduling.slot()
     }
 
     /// How far the output has got (shared with the playback side and the control thread).
@@ -56,6 +76,7 @@ impl CaptureSide {
     /// does not fit in the ring is dropped, newest first, and counted in
     /// `EngineStats::input_overruns` (samples). Allocates nothing, locks nothing.
     pub fn on_input<T: DeviceSample>(&mut self, data: &[T]) {
+        self.scheduling.on_callback();
         let whole = data.len() - data.len() % self.channels;
         for chunk in data[..whole].chunks(self.input.len()) {
             let n = chunk.len();
@@ -67,6 +88,9 @@ impl CaptureSide {
             let room = self.ring.vacant_len();
             let fits = n.min(room - room % self.channels);
             let pushed = self.ring.push_slice(&self.output[..fits]);
+            if let Some(clock) = &self.push_clock {
+                clock.mark_push();
+            }
             self.playout
                 .record_pushed((pushed / self.channels) as u64, self.engine.fade_out_done());
             let dropped = n - pushed;

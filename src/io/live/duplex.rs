@@ -8,14 +8,16 @@ use cpal::traits::{DeviceTrait, StreamTrait};
 use super::capture_side::CaptureSide;
 use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
 use super::error::{Direction, LiveError};
+use super::memory_lock::lock_process_memory;
 use super::playback_side::PlaybackSide;
 use super::playout::PlayoutProgress;
-use super::ring::{duplex_sides, RingPlan};
+use super::realtime::{request_for_priority, SchedulingWatch};
+use super::ring::{duplex_sides, duplex_sides_two_clocks, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
 use super::stream_errors::{StreamErrorCounter, StreamErrorKind, StreamErrorTally};
 use crate::engine::{Engine, EngineStats};
-use crate::model::{MAX_CHANNELS, SAMPLE_RATE_RANGE};
+use crate::model::{AudioHost, Clocks, MAX_CHANNELS, SAMPLE_RATE_RANGE};
 
 /// Which devices to open and how.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -29,6 +31,15 @@ pub struct DeviceRequest {
     pub channels: u16,
     /// Frames per device period; `None` picks a default the devices accept.
     pub buffer_frames: Option<u32>,
+    /// `SCHED_FIFO` priority both callback threads ask for on their first call (0: ask
+    /// nothing; see [`super::realtime`]).
+    pub callback_priority: u8,
+    /// Lock the process's memory before the streams start, where the limits allow.
+    pub lock_memory: bool,
+    /// The audio system to open the devices on (only ALSA is built so far).
+    pub host: AudioHost,
+    /// Whether capture and playback share a sample clock; two clocks are resampled.
+    pub clocks: Clocks,
 }
 
 impl Default for DeviceRequest {
@@ -39,6 +50,10 @@ impl Default for DeviceRequest {
             sample_rate: 48_000,
             channels: 2,
             buffer_frames: None,
+            callback_priority: 0,
+            lock_memory: false,
+            host: AudioHost::Alsa,
+            clocks: Clocks::Auto,
         }
     }
 }
@@ -79,7 +94,7 @@ impl fmt::Display for DuplexConfig {
             f,
             "capture `{}` ({}, {}-frame period) → playback `{}` ({}, {}-frame period), \
              {} channel(s) at {} Hz; ring {} frames with {} frames of silence up front \
-             ({:.1} ms of added buffering latency)",
+             ({:.1} ms of added buffering latency){}",
             self.input_device,
             self.input_format,
             self.input_period_frames,
@@ -91,6 +106,10 @@ impl fmt::Display for DuplexConfig {
             self.ring.capacity_frames(),
             self.ring.prefill_frames(),
             1000.0 * self.ring_latency_seconds(),
+            match self.ring.two_clocks {
+                true => "; two clocks: playback resampled to hold the ring",
+                false => "",
+            },
         )
     }
 }
@@ -113,6 +132,7 @@ pub struct DuplexStreams {
     input_errors: Arc<StreamErrorCounter>,
     output_errors: Arc<StreamErrorCounter>,
     playout: Arc<PlayoutProgress>,
+    scheduling: SchedulingWatch,
 }
 
 /// Device buffering assumed when the playback device reports no delay: the ALSA backend keeps
@@ -155,6 +175,11 @@ impl DuplexStreams {
         }
     }
 
+    /// What the callback threads run at and whether memory is locked.
+    pub fn realtime(&self) -> &SchedulingWatch {
+        &self.scheduling
+    }
+
     /// Stops both streams (the same as dropping).
     pub fn stop(self) {
         drop(self);
@@ -192,8 +217,27 @@ pub fn start_duplex(
     let output_choice = choose_for(&output_device, &output_label, Direction::Playback, request)?;
 
     let period = input_choice.period_frames.max(output_choice.period_frames) as usize;
-    let (capture, playback, ring) = duplex_sides(engine, stats, period);
+    let (mut capture, mut playback, ring) = match request.clocks {
+        // Two crystals: the playback side resamples by the drift loop's ratio.
+        Clocks::Separate => {
+            duplex_sides_two_clocks(engine, stats, period, f64::from(request.sample_rate)).map_err(
+                |e| LiveError::InvalidRequest {
+                    field: "clocks",
+                    value: "separate".to_string(),
+                    why: e.to_string(),
+                    help: "leave clocks out (one clock) while this is looked into".to_string(),
+                },
+            )?
+        }
+        // One clock (one device, or devices that share one): nothing resampled, bit-exact.
+        Clocks::Auto | Clocks::Shared => duplex_sides(engine, stats, period),
+    };
     let playout = capture.playout();
+    // Before the streams start: with the future pages locked, their threads' stacks are too.
+    let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
+    let asked = request_for_priority(request.callback_priority);
+    scheduling.add("capture and engine", asked, capture.set_scheduling(asked));
+    scheduling.add("playback", asked, playback.set_scheduling(asked));
 
     let input_errors = Arc::new(StreamErrorCounter::default());
     let output_errors = Arc::new(StreamErrorCounter::default());
@@ -233,10 +277,26 @@ pub fn start_duplex(
         input_errors,
         output_errors,
         playout,
+        scheduling,
     })
 }
 
 fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveError> {
+    // Refused rather than run on ALSA under another name: `status` would report a host the
+    // audio does not go through.
+    if request.host != AudioHost::Alsa {
+        return Err(LiveError::InvalidRequest {
+            field: "host",
+            value: request.host.key().to_string(),
+            why: "this build of redress opens ALSA devices only; its JACK and PipeWire hosts \
+                  are not written yet"
+                .to_string(),
+            help: "set host = \"alsa\" (or leave it out); a JACK or PipeWire server is reached \
+                   through its ALSA plugin: input_device = output_device = \"jack\" or \
+                   \"pipewire\" as `redress devices` lists them"
+                .to_string(),
+        });
+    }
     let (lo, hi) = SAMPLE_RATE_RANGE;
     if !(lo..=hi).contains(&f64::from(request.sample_rate)) {
         return Err(LiveError::InvalidRequest {
@@ -323,6 +383,7 @@ fn build_capture(
         DeviceFormat::F32 => build::<f32>(device, choice, capture, errors),
         DeviceFormat::I16 => build::<i16>(device, choice, capture, errors),
         DeviceFormat::I32 => build::<i32>(device, choice, capture, errors),
+        DeviceFormat::I24 => build::<cpal::I24>(device, choice, capture, errors),
     }
 }
 
@@ -358,6 +419,7 @@ fn build_playback(
     match choice.format {
         DeviceFormat::F32 => build::<f32>(device, choice, playback, errors, rate),
         DeviceFormat::I16 => build::<i16>(device, choice, playback, errors, rate),
+        DeviceFormat::I24 => build::<cpal::I24>(device, choice, playback, errors, rate),
         DeviceFormat::I32 => build::<i32>(device, choice, playback, errors, rate),
     }
 }

@@ -48,6 +48,16 @@ pub enum LiveError {
         /// What the device does offer, one line per sample format.
         offered: Vec<String>,
     },
+    /// The device does not run the rate the config's filters were designed for (with the
+    /// channel count asked for); running them at another rate would move every frequency.
+    RateMismatch {
+        direction: Direction,
+        device: String,
+        /// The config's `sample_rate_hz`.
+        design_rate: u32,
+        /// The rates the device does run with that channel count ("44100 Hz", "8000–44100 Hz").
+        device_rates: Vec<String>,
+    },
     /// The engine was built for another channel count than the devices are opened with.
     ChannelMismatch {
         engine_channels: usize,
@@ -153,6 +163,21 @@ impl fmt::Display for LiveError {
                      that list, or pick another device"
                 )
             }
+            LiveError::RateMismatch {
+                direction,
+                device,
+                design_rate,
+                device_rates,
+            } => write!(
+                f,
+                "{direction} device `{device}` runs at {}, and the config's filters are designed \
+                 for {design_rate} Hz: run at another rate, every frequency the inverse corrects \
+                 would move by the ratio, so redress does not start\n  help: set the device (or \
+                 its sound server) to {design_rate} Hz, or measure the link again at the \
+                 device's rate (`redress stimulus --rate`, `redress identify`) and run that \
+                 config",
+                device_rates.join(" or ")
+            ),
             LiveError::ChannelMismatch {
                 engine_channels,
                 requested,

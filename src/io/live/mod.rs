@@ -15,12 +15,19 @@
 
 mod capture_side;
 mod devices;
+mod dither;
+pub mod drift;
+mod drift_stage;
+pub use drift_stage::PushClock;
 mod duplex;
 mod error;
+mod memory_lock;
+mod os_scheduling;
 mod playback_side;
 mod playout;
 mod published_count;
 mod quiet_stderr;
+pub mod realtime;
 pub mod ring;
 mod round_trip;
 mod samples;
@@ -34,11 +41,21 @@ mod atomics {
 
 pub use capture_side::CaptureSide;
 pub use devices::{list_devices, DEFAULT_DEVICE};
+pub use dither::TpdfDither;
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
 pub use error::{Direction, LiveError};
+pub use memory_lock::{lock_process_memory, MemoryLock};
 pub use playback_side::PlaybackSide;
 pub use playout::PlayoutProgress;
-pub use ring::{duplex_sides, RingPlan, PREFILL_PERIODS, RING_PERIODS};
+pub use realtime::{
+    request_for_priority, CallbackScheduling, RealtimeStatus, SchedulingRequest, SchedulingWatch,
+};
+#[cfg(any(test, feature = "test-door"))]
+pub use ring::duplex_sides_two_clocks_on;
+pub use ring::{
+    duplex_sides, duplex_sides_two_clocks, RingPlan, PREFILL_PERIODS, RING_PERIODS,
+    TWO_CLOCK_TARGET_HALF_PERIODS,
+};
 pub use round_trip::{record_loop, LoopRecording, LoopRequest};
 pub use samples::{DeviceFormat, DeviceSample};
 pub use stream_choice::DEFAULT_PERIOD_FRAMES;

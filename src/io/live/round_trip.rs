@@ -198,6 +198,7 @@ fn build_input(
         DeviceFormat::F32 => build::<f32>(device, choice, channels, began, log),
         DeviceFormat::I16 => build::<i16>(device, choice, channels, began, log),
         DeviceFormat::I32 => build::<i32>(device, choice, channels, began, log),
+        DeviceFormat::I24 => build::<cpal::I24>(device, choice, channels, began, log),
     }
 }
 
@@ -258,5 +259,8 @@ fn build_output(
         DeviceFormat::F32 => build::<f32>(device, choice, channels, began, signal, armed, log),
         DeviceFormat::I16 => build::<i16>(device, choice, channels, began, signal, armed, log),
         DeviceFormat::I32 => build::<i32>(device, choice, channels, began, signal, armed, log),
+        DeviceFormat::I24 => {
+            build::<cpal::I24>(device, choice, channels, began, signal, armed, log)
+        }
     }
 }

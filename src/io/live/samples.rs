@@ -5,28 +5,41 @@
 //! on the way out values are rounded to the nearest integer and clamped, since +1.0 has no
 //! integer counterpart. Non-finite values never reach a device (the engine's clip guard zeroes
 //! them); the conversion still maps NaN to silence rather than to an arbitrary code.
+//!
+//! 24-bit devices are run as the backend's 24-bit-in-32 samples (ALSA `S24_LE`); cpal does not
+//! open the packed three-byte layout (`S24_3LE`), so a device that has only that is reached
+//! through ALSA's `plughw:` device, which converts. 16-bit output is dithered
+//! ([`super::dither`]).
 
 use std::fmt;
+
+use super::dither::TpdfDither;
 
 /// A sample format the live layer can open a device with, in order of preference.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum DeviceFormat {
     F32,
-    I16,
     I32,
+    I24,
+    I16,
 }
 
 impl DeviceFormat {
     /// Formats tried when a device offers several: float first (no conversion), then the
-    /// integer widths devices most often have.
-    pub const PREFERENCE: [DeviceFormat; 3] =
-        [DeviceFormat::F32, DeviceFormat::I16, DeviceFormat::I32];
+    /// integers from the widest down (the finest steps; 16 bits last, as it needs dither).
+    pub const PREFERENCE: [DeviceFormat; 4] = [
+        DeviceFormat::F32,
+        DeviceFormat::I32,
+        DeviceFormat::I24,
+        DeviceFormat::I16,
+    ];
 
     pub(crate) fn to_cpal(self) -> cpal::SampleFormat {
         match self {
             DeviceFormat::F32 => cpal::SampleFormat::F32,
             DeviceFormat::I16 => cpal::SampleFormat::I16,
             DeviceFormat::I32 => cpal::SampleFormat::I32,
+            DeviceFormat::I24 => cpal::SampleFormat::I24,
         }
     }
 
@@ -41,6 +54,7 @@ impl fmt::Display for DeviceFormat {
             DeviceFormat::F32 => "32-bit float",
             DeviceFormat::I16 => "16-bit integer",
             DeviceFormat::I32 => "32-bit integer",
+            DeviceFormat::I24 => "24-bit integer (in 32 bits)",
         })
     }
 }
@@ -52,6 +66,13 @@ pub trait DeviceSample: cpal::SizedSample + Send + 'static {
     const SILENCE: Self;
     fn to_f32(self) -> f32;
     fn from_f32(value: f32) -> Self;
+    /// `from_f32` with dither where the format needs it (16 bits: TPDF of ±1 LSB); the wider
+    /// formats ignore `dither`.
+    #[inline]
+    fn from_f32_dithered(value: f32, dither: &mut TpdfDither) -> Self {
+        let _ = dither;
+        Self::from_f32(value)
+    }
 }
 
 impl DeviceSample for f32 {
@@ -82,6 +103,31 @@ impl DeviceSample for i16 {
     fn from_f32(value: f32) -> Self {
         // `as` saturates and maps NaN to 0.
         (value * 32_768.0).round() as i16
+    }
+
+    #[inline]
+    fn from_f32_dithered(value: f32, dither: &mut TpdfDither) -> Self {
+        // In steps: the dither is added where the rounding happens, in f32 (exact enough: a
+        // step is 2⁻¹⁵ of full scale, f32 carries 24 bits).
+        (value * 32_768.0 + dither.next_lsb()).round() as i16
+    }
+}
+
+impl DeviceSample for cpal::I24 {
+    const FORMAT: DeviceFormat = DeviceFormat::I24;
+    const SILENCE: Self = <cpal::I24 as cpal::Sample>::EQUILIBRIUM;
+
+    #[inline]
+    fn to_f32(self) -> f32 {
+        // 24 bits fit f32's significand: exact.
+        self.inner() as f32 / 8_388_608.0
+    }
+
+    #[inline]
+    fn from_f32(value: f32) -> Self {
+        let code = (f64::from(value) * 8_388_608.0).round();
+        // NaN maps to 0 through `as`; the clamp keeps the code inside 24 bits.
+        cpal::I24::new_unchecked((code as i32).clamp(-8_388_608, 8_388_607))
     }
 }
 
@@ -114,6 +160,9 @@ mod tests {
         assert_eq!(i32::MIN.to_f32(), -1.0);
         assert_eq!(i16::from_f32(0.5), 16_384);
         assert_eq!(i32::from_f32(-0.25), -536_870_912);
+        assert_eq!(cpal::I24::new_unchecked(-8_388_608).to_f32(), -1.0);
+        assert_eq!(cpal::I24::new_unchecked(1).to_f32(), 1.0 / 8_388_608.0);
+        assert_eq!(cpal::I24::from_f32(0.5).inner(), 4_194_304);
     }
 
     #[test]
@@ -123,12 +172,23 @@ mod tests {
         assert_eq!(i16::from_f32(f32::NAN), 0);
         assert_eq!(i32::from_f32(2.0), i32::MAX);
         assert_eq!(i32::from_f32(f32::NAN), 0);
+        assert_eq!(cpal::I24::from_f32(1.0).inner(), 8_388_607);
+        assert_eq!(cpal::I24::from_f32(-2.0).inner(), -8_388_608);
+        assert_eq!(cpal::I24::from_f32(f32::NAN).inner(), 0);
     }
 
     #[test]
     fn every_i16_code_survives_a_round_trip() {
         for code in i16::MIN..=i16::MAX {
             assert_eq!(i16::from_f32(code.to_f32()), code);
+        }
+    }
+
+    #[test]
+    fn every_i24_code_survives_a_round_trip() {
+        for code in (-8_388_608..=8_388_607).step_by(7) {
+            let sample = cpal::I24::new_unchecked(code);
+            assert_eq!(cpal::I24::from_f32(sample.to_f32()).inner(), code);
         }
     }
 
@@ -141,6 +201,10 @@ mod tests {
         assert_eq!(
             <i16 as DeviceSample>::FORMAT.to_cpal(),
             <i16 as cpal::SizedSample>::FORMAT
+        );
+        assert_eq!(
+            <cpal::I24 as DeviceSample>::FORMAT.to_cpal(),
+            <cpal::I24 as cpal::SizedSample>::FORMAT
         );
     }
 }

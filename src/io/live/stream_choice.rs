@@ -51,6 +51,18 @@ pub(crate) fn choose_config(
             .find(|r| r.sample_format() == f.to_cpal())
             .map(|r| (*f, r))
     }) else {
+        let rates = rates_with_channels(offered, channels);
+        let runs_the_rate = offered
+            .iter()
+            .any(|r| r.channels() == channels && r.contains_rate(sample_rate));
+        if !rates.is_empty() && !runs_the_rate {
+            return Err(LiveError::RateMismatch {
+                direction,
+                device: device.to_string(),
+                design_rate: sample_rate,
+                device_rates: rates,
+            });
+        }
         return Err(refuse(why_nothing_fits(offered, sample_rate, channels)));
     };
     let period_frames = match (range.buffer_size(), period) {
@@ -74,6 +86,23 @@ pub(crate) fn choose_config(
         },
         period_frames,
     })
+}
+
+/// The rates `offered` runs with `channels` channels, in order, each once: "44100 Hz" or
+/// "8000–44100 Hz".
+fn rates_with_channels(offered: &[SupportedStreamConfigRange], channels: u16) -> Vec<String> {
+    let ranges: BTreeSet<(u32, u32)> = offered
+        .iter()
+        .filter(|r| r.channels() == channels)
+        .map(|r| (r.min_sample_rate(), r.max_sample_rate()))
+        .collect();
+    ranges
+        .into_iter()
+        .map(|(lo, hi)| match lo == hi {
+            true => format!("{lo} Hz"),
+            false => format!("{lo}–{hi} Hz"),
+        })
+        .collect()
 }
 
 fn why_nothing_fits(offered: &[SupportedStreamConfigRange], rate: u32, channels: u16) -> String {
@@ -104,8 +133,9 @@ fn why_nothing_fits(offered: &[SupportedStreamConfigRange], rate: u32, channels:
         .map(|r| r.sample_format().to_string())
         .collect();
     format!(
-        "at that rate and channel count it offers only {} samples, and this tool runs f32, i16 \
-         or i32",
+        "at that rate and channel count it offers only {} samples, and this tool runs f32, i32, \
+         i24 (24 bits in 32) or i16; packed 24-bit devices are reached through ALSA's plughw: \
+         device, which converts",
         formats.into_iter().collect::<Vec<_>>().join(", ")
     )
 }
@@ -184,10 +214,26 @@ mod tests {
         );
         assert!(text.contains("i16: 1 channel, 44100 Hz"), "{text}");
 
-        let offered = [range(2, 44_100, 44_100, SampleFormat::I16)];
-        let text = choose(&offered, None).unwrap_err().to_string();
+        // Common practice: a digital filter designed at one rate, run at another, has its whole
+        // response moved by the ratio, so a device that cannot run the design rate is refused
+        // by name with both rates (never run, never resampled silently).
+        let offered = [
+            range(2, 44_100, 44_100, SampleFormat::I16),
+            range(2, 8_000, 32_000, SampleFormat::F32),
+            range(1, 48_000, 48_000, SampleFormat::F32),
+        ];
+        let err = choose(&offered, None).unwrap_err();
+        assert!(matches!(err, LiveError::RateMismatch { .. }), "{err:?}");
+        let text = err.to_string();
         assert!(
-            text.contains("does not run 2 channel(s) at 48000 Hz"),
+            text.contains(
+                "runs at 8000–32000 Hz or 44100 Hz, and the config's filters are designed for \
+                 48000 Hz"
+            ),
+            "{text}"
+        );
+        assert!(
+            text.contains("help: set the device (or its sound server) to 48000 Hz"),
             "{text}"
         );
 

@@ -264,6 +264,35 @@ fn format_version_and_whole_sample_rates() {
 }
 
 #[test]
+fn audio_table_reads_host_scheduling_clocks_and_ports() {
+    use crate::model::{AudioHost, Clocks};
+    let link = parse(&format!(
+        "{MONO}[[path]]\nchannels = [0]\ndifference_equation = {{ b = [1, 0.5] }}\n\n[audio]\n\
+         host = \"jack\"\ncallback_priority = 0\nlock_memory = false\nclocks = \"separate\"\n\
+         connect_inputs = [\"system:capture_1\"]\nconnect_outputs = [\" system:playback_1 \"]\n"
+    ));
+    let audio = &link.runtime.audio;
+    assert_eq!(audio.host, AudioHost::Jack);
+    assert_eq!(audio.callback_priority, 0);
+    assert!(!audio.lock_memory);
+    assert_eq!(audio.clocks, Clocks::Separate);
+    assert_eq!(audio.connect_inputs, vec!["system:capture_1".to_string()]);
+    assert_eq!(audio.connect_outputs, vec!["system:playback_1".to_string()]);
+
+    let defaults = parse(&format!(
+        "{MONO}[[path]]\nchannels = [0]\ndifference_equation = {{ b = [1, 0.5] }}\n"
+    ));
+    let audio = &defaults.runtime.audio;
+    assert_eq!(audio.host, AudioHost::Alsa);
+    assert_eq!(
+        audio.callback_priority,
+        crate::model::DEFAULT_CALLBACK_PRIORITY
+    );
+    assert!(audio.lock_memory);
+    assert_eq!(audio.clocks, Clocks::Auto);
+}
+
+#[test]
 fn latency_knee_with_its_budget() {
     let link = parse(&format!(
         "{MONO}[[path]]\nchannels = [0]\ndifference_equation = {{ b = [0.5, 1] }}\n\

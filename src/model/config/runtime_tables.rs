@@ -1,14 +1,16 @@
 //! The optional `[audio]` and `[engine]` tables: devices and guard behaviour of the live service.
 
 use super::schema::{
-    AUDIO, AUDIO_TABLE, BUFFER_FRAMES, CLIP, CROSSFADE_MS, ENGINE, ENGINE_TABLE, FADE_IN_MS,
-    FADE_OUT_MS, FALLBACK, GAIN_RELEASE_MS, INPUT_DEVICE, INSTABILITY_HOLD_MS,
-    INSTABILITY_MARGIN_DB, OUTPUT_DEVICE,
+    AUDIO, AUDIO_TABLE, BUFFER_FRAMES, CALLBACK_PRIORITY, CLIP, CLOCKS, CONNECT_INPUTS,
+    CONNECT_OUTPUTS, CROSSFADE_MS, ENGINE, ENGINE_TABLE, FADE_IN_MS, FADE_OUT_MS, FALLBACK,
+    GAIN_RELEASE_MS, HOST, INPUT_DEVICE, INSTABILITY_HOLD_MS, INSTABILITY_MARGIN_DB, LOCK_MEMORY,
+    OUTPUT_DEVICE,
 };
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
 use crate::model::{
-    AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings, BUFFER_FRAMES_RANGE,
+    AudioHost, AudioSettings, ClipPolicy, Clocks, EngineOptions, Fallback, RuntimeSettings,
+    BUFFER_FRAMES_RANGE, MAX_CALLBACK_PRIORITY,
 };
 
 /// Reads `[audio]` and `[engine]`, each optional.
@@ -56,6 +58,62 @@ fn read_audio(node: &Node<'_>) -> Result<AudioSettings, ConfigError> {
             ));
         }
         audio.buffer_frames = Some(frames as u32);
+    }
+    if let Some(n) = table.get(HOST) {
+        audio.host = n.choice(&[
+            ("alsa", AudioHost::Alsa),
+            ("jack", AudioHost::Jack),
+            ("pipewire", AudioHost::PipeWire),
+        ])?;
+    }
+    if let Some(n) = table.get(CALLBACK_PRIORITY) {
+        let priority = n.integer()?;
+        let high = i64::from(MAX_CALLBACK_PRIORITY);
+        if !(0..=high).contains(&priority) {
+            return Err(n.fail(
+                ConfigErrorKind::OutOfRange,
+                format!("callback_priority must be from 0 to {high}, not {priority}"),
+                "70 suits most machines; 0 leaves the callback threads at ordinary priority",
+            ));
+        }
+        audio.callback_priority = priority as u8;
+    }
+    if let Some(n) = table.get(LOCK_MEMORY) {
+        audio.lock_memory = n.boolean()?;
+    }
+    if let Some(n) = table.get(CLOCKS) {
+        audio.clocks = n.choice(&[
+            ("auto", Clocks::Auto),
+            ("shared", Clocks::Shared),
+            ("separate", Clocks::Separate),
+        ])?;
+    }
+    for (key, slot) in [
+        (CONNECT_INPUTS, &mut audio.connect_inputs),
+        (CONNECT_OUTPUTS, &mut audio.connect_outputs),
+    ] {
+        let Some(n) = table.get(key) else { continue };
+        if audio.host != AudioHost::Jack {
+            return Err(n.fail(
+                ConfigErrorKind::OutOfRange,
+                format!(
+                    "{key} names ports of a JACK graph, and host is \"{}\"",
+                    audio.host.key()
+                ),
+                "set host = \"jack\", or leave the key out (other hosts connect by device name)",
+            ));
+        }
+        for port in n.array()? {
+            let name = port.string()?.trim();
+            if name.is_empty() {
+                return Err(port.fail(
+                    ConfigErrorKind::OutOfRange,
+                    "the port name is empty",
+                    "write ports as `jack_lsp` lists them, e.g. \"system:capture_1\"",
+                ));
+            }
+            slot.push(name.to_owned());
+        }
     }
     Ok(audio)
 }

@@ -87,9 +87,25 @@ pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
 pub(crate) const INPUT_DEVICE: &str = "input_device";
 pub(crate) const OUTPUT_DEVICE: &str = "output_device";
 pub(crate) const BUFFER_FRAMES: &str = "buffer_frames";
+pub(crate) const HOST: &str = "host";
+pub(crate) const CALLBACK_PRIORITY: &str = "callback_priority";
+pub(crate) const LOCK_MEMORY: &str = "lock_memory";
+pub(crate) const CLOCKS: &str = "clocks";
+pub(crate) const CONNECT_INPUTS: &str = "connect_inputs";
+pub(crate) const CONNECT_OUTPUTS: &str = "connect_outputs";
 pub(crate) const AUDIO_TABLE: TableSchema = TableSchema {
     name: "[audio]",
-    keys: &[INPUT_DEVICE, OUTPUT_DEVICE, BUFFER_FRAMES],
+    keys: &[
+        HOST,
+        INPUT_DEVICE,
+        OUTPUT_DEVICE,
+        BUFFER_FRAMES,
+        CALLBACK_PRIORITY,
+        LOCK_MEMORY,
+        CLOCKS,
+        CONNECT_INPUTS,
+        CONNECT_OUTPUTS,
+    ],
 };
 
 pub(crate) const CROSSFADE_MS: &str = "crossfade_ms";
