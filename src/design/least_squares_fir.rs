@@ -174,7 +174,7 @@ fn autocorrelation(h: &[f64], taps: usize, regularization: f64) -> Vec<f64> {
 }
 
 /// ‖h∗g − δ(n − D)‖², by direct convolution.
-fn residual_energy(h: &[f64], g: &[f64], delay: usize) -> f64 {
+pub(crate) fn residual_energy(h: &[f64], g: &[f64], delay: usize) -> f64 {
     let n = h.len() + g.len() - 1;
     let mut energy = 0.0;
     for k in 0..n.max(delay + 1) {

@@ -2,10 +2,15 @@
 
 use num_complex::Complex64;
 
+use super::band_figures::band_figures;
+use super::band_limit::{limit_recursive_design, lowest_snr_in, needs_limiting, BandOutcome};
+use super::band_weighted_fir::{solve_weighted, SpectralWeights};
 use super::boost_cap::cap_boost;
 use super::cepstral_minimum_phase::cepstral_inverse;
+use super::correction_band::correction_band;
 use super::least_squares_fir::{search_delay, solve_at_delay};
 use super::minimum_phase::{all_pass_residual, reflect_outside_zeros};
+use super::noise_weight::snr_at;
 use super::{
     decay_60db_samples, design_exact, BoostCapReport, DesignError, DesignMethod, FirReport,
     InverseDesign,
@@ -38,10 +43,12 @@ pub fn design_inverse(
                 });
             }
             normalise(channel, design, policy, sample_rate)
+                .map(|d| limit_recursive_design(channel, d, policy, sample_rate))
         }
         InverseMethod::MinimumPhase => {
             minimum_phase_inverse(channel, analysis, policy, sample_rate)
                 .and_then(|d| normalise(channel, d, policy, sample_rate))
+                .map(|d| limit_recursive_design(channel, d, policy, sample_rate))
         }
         InverseMethod::LeastSquaresFir => fir_inverse(channel, analysis, policy, sample_rate),
     }
@@ -153,6 +160,7 @@ fn root_route(
         fir: None,
         unity_scale_db: 0.0,
         cepstral: None,
+        band: None,
     })
 }
 
@@ -168,7 +176,8 @@ fn fir_inverse(
     let h = decayed_impulse_response(&channel.b, &channel.a, MAX_CHANNEL_RESPONSE);
     let settings = &policy.fir;
     let taps = settings.taps;
-    let solve = |regularization: f64| match settings.delay {
+    let band = correction_band(policy, sample_rate);
+    let unweighted = |regularization: f64| match settings.delay {
         FirDelay::Fixed { samples } => solve_at_delay(&h, taps, samples, regularization),
         FirDelay::Search { budget_seconds } => {
             let budget = (budget_seconds * sample_rate).floor() as usize;
@@ -176,11 +185,29 @@ fn fir_inverse(
             search_delay(&h, taps, max_delay, regularization)
         }
     };
-    // Raise the regularisation by decades until the taps respect the boost cap.
-    let mut regularization = settings.regularization;
-    let mut solution = solve(regularization).ok_or(DesignError::Numerical {
+    // The plain design first: when it keeps to its band (and the noise asks nothing), it stands.
+    let first = unweighted(settings.regularization).ok_or(DesignError::Numerical {
         what: "the least-squares system is singular; set a small regularization (e.g. 1e-6)",
     })?;
+    let first_figures = band_figures(&first.taps, &[1.0], &band);
+    let weighted = needs_limiting(&first_figures, &band, &policy.band_snr).then(|| {
+        let size = super::band_figures::grid_size(taps + h.len(), &band);
+        SpectralWeights::new(size, &band, |hz| snr_at(&policy.band_snr, hz))
+    });
+    // The weighted design keeps the plain design's delay (searched without weights).
+    let solve = |regularization: f64| match &weighted {
+        Some(weights) => solve_weighted(&h, taps, first.delay, regularization, weights),
+        None => unweighted(regularization),
+    };
+    // Raise the regularisation by decades until the taps respect the boost cap.
+    let mut regularization = settings.regularization;
+    let mut solution = match weighted {
+        Some(_) => solve(regularization).ok_or(DesignError::Numerical {
+            what: "the band-weighted least-squares system is singular; set a small \
+                   regularization (e.g. 1e-6)",
+        })?,
+        None => first.clone(),
+    };
     let mut raised = false;
     let mut peak = peak_magnitude(&solution.taps, &[1.0]);
     while peak.level_db > policy.boost_cap_db && regularization < 1.0 {
@@ -212,6 +239,16 @@ fn fir_inverse(
         level_reduction_db,
         residual_error_db: solution.residual_error_db,
     };
+    let figures = band_figures(&solution.taps, &[1.0], &band);
+    let band_outcome = BandOutcome {
+        band,
+        limited: weighted.is_some(),
+        noise_aware: weighted.is_some() && !policy.band_snr.is_empty(),
+        lowest_snr_db: lowest_snr_in(&band, &policy.band_snr),
+        outside_before: first_figures.outside,
+        fit_error_db: 0.0,
+        figures,
+    };
     let inverse = TransferFunction::new(solution.taps, vec![1.0]);
     // The cascade is ≈ δ(n − D): the channel's own bulk delay is part of D, the rest is added.
     let channel_delay = analysis.bulk_delay.min(solution.delay);
@@ -231,6 +268,7 @@ fn fir_inverse(
         fir: Some(report),
         unity_scale_db: 0.0,
         cepstral: None,
+        band: Some(band_outcome),
     })
 }
 
@@ -296,9 +334,15 @@ mod tests {
     use crate::numeric::poly::multiply;
     use crate::numeric::response::magnitude_db;
 
+    /// The policy corrects from 0 Hz to half the sample rate: these tests are about the designs
+    /// themselves (`tests/correction_band.rs` is about the band).
     fn policy(method: InverseMethod) -> InversePolicy {
         InversePolicy {
             method,
+            correction_band_hz: Some(crate::model::BandEdges {
+                low_hz: 0.0,
+                high_hz: 24_000.0,
+            }),
             ..InversePolicy::default()
         }
     }
