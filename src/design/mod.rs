@@ -185,6 +185,26 @@ impl InverseDesign {
                 ));
             }
         }
+        if let Some(band) = self.band.as_ref().filter(|b| b.limited) {
+            let recursive = self.fir.is_none();
+            parts.push(format!(
+                "the link outside {:.1}-{:.1} Hz: the inverse rolls to unity gain at the band's \
+                 edges{}{}",
+                band.band.low_hz,
+                band.band.high_hz,
+                if recursive {
+                    " (run as a minimum-phase FIR, whose phase in the band follows the \
+                     band-limited magnitude)"
+                } else {
+                    ""
+                },
+                if band.noise_aware {
+                    "; gain held back where the measured SNR is low"
+                } else {
+                    ""
+                }
+            ));
+        }
         if parts.is_empty() {
             "nothing: magnitude and phase fully corrected".to_string()
         } else {
