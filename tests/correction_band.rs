@@ -288,3 +288,29 @@ fn a_design_inside_its_band_is_left_alone() {
     assert!(!band.limited);
     assert!(band.figures.outside.unwrap().db <= 0.0);
 }
+
+// Source: Wiener deconvolution (common practice): where the measured SNR is S the correction's
+// amplitude is scaled by S/(1 + S), so at 0 dB it loses 6.02 dB and at 40 dB 0.0009 dB. The
+// recursive design takes it as a factor on its band-limited magnitude (fitted to 0.1 dB).
+#[test]
+fn measured_noise_holds_back_the_gain_where_the_snr_is_low() {
+    use redress::model::BandSnr;
+    let channel = ac_coupled(1.0);
+    let plain = design(&channel, &policy(InverseMethod::MinimumPhase));
+    let mut noisy_policy = policy(InverseMethod::MinimumPhase);
+    noisy_policy.band_snr = [(500.0, 40.0), (2000.0, 0.0), (8000.0, 40.0)]
+        .iter()
+        .map(|&(hz, snr_db)| BandSnr { hz, snr_db })
+        .collect();
+    let noisy = design(&channel, &noisy_policy);
+    let band = noisy.band.as_ref().unwrap();
+    assert!(band.limited && band.noise_aware);
+    assert_eq!(band.lowest_snr_db, Some(0.0));
+    let gain = |d: &InverseDesign, hz: f64| magnitude_db(&d.inverse.b, &d.inverse.a, omega(hz));
+    let at_dip = gain(&noisy, 2000.0) - gain(&plain, 2000.0);
+    let at_500 = gain(&noisy, 500.0) - gain(&plain, 500.0);
+    eprintln!("noise-aware: {at_dip:.3} dB at 2 kHz (SNR 0 dB), {at_500:.4} dB at 500 Hz (40 dB)");
+    assert!((at_dip + 6.0206).abs() < 0.15, "{at_dip} dB at 2 kHz");
+    assert!(at_500.abs() < 0.15, "{at_500} dB at 500 Hz");
+    assert!(noisy.gives_up().contains("measured SNR is low"));
+}

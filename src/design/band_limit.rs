@@ -17,7 +17,7 @@ use super::correction_band::{correction_band, CorrectionBand};
 use super::noise_weight::{log_wiener_at, NOISE_AWARE_BELOW_DB};
 use super::{decay_60db_samples, InverseDesign};
 use crate::model::{BandSnr, InversePolicy, TransferFunction};
-use crate::numeric::homomorphic::{minimum_phase, spectrum_on_grid};
+use crate::numeric::homomorphic::{from_log_magnitude, spectrum_on_grid};
 use crate::numeric::response::peak_magnitude;
 
 /// A boost outside the band up to this (dB) is left alone (the roll of a design that hardly
@@ -74,7 +74,7 @@ pub fn limit_recursive_design(
     let band = correction_band(policy, sample_rate);
     let before = band_figures(&design.inverse.b, &design.inverse.a, &band);
     let lowest_snr_db = lowest_snr_in(&band, &policy.band_snr);
-    if !needs_limiting(&before, &band, &policy.band_snr) {
+    let as_designed = |mut design: InverseDesign, before: BandFigures| {
         design.band = Some(BandOutcome {
             band,
             limited: false,
@@ -84,7 +84,10 @@ pub fn limit_recursive_design(
             fit_error_db: 0.0,
             figures: before,
         });
-        return design;
+        design
+    };
+    if !needs_limiting(&before, &band, &policy.band_snr) {
+        return as_designed(design, before);
     }
     let target = BandTarget {
         channel,
@@ -94,17 +97,8 @@ pub fn limit_recursive_design(
         snr: &policy.band_snr,
     };
     let Some((mut taps, fit_error_db)) = band_limited_taps(&target) else {
-        // Left as designed (and reported so): the grid could not hold it.
-        design.band = Some(BandOutcome {
-            band,
-            limited: false,
-            noise_aware: false,
-            lowest_snr_db,
-            outside_before: before.outside,
-            fit_error_db: 0.0,
-            figures: before,
-        });
-        return design;
+        // Left as designed (and reported so): the target is not finite on the grid.
+        return as_designed(design, before);
     };
     // The target never exceeds the design's own peak; the FIR's fit error may, by a hair.
     let mut peak = peak_magnitude(&taps, &[1.0]);
@@ -171,18 +165,18 @@ impl BandTarget<'_> {
 /// The minimum-phase FIR with the target's magnitude, and its largest deviation from it (dB).
 /// `None` when the target is not finite on the grid.
 pub fn band_limited_taps(target: &BandTarget<'_>) -> Option<(Vec<f64>, f64)> {
-    let channel = target.channel;
-    let first = grid_size(channel.b.len().max(channel.a.len()), target.band);
-    if target.log_magnitude(first).iter().any(|v| !v.is_finite()) {
+    // One grid for the longest FIR: 8 points per tap and 16 across the band's narrowest roll
+    // (2¹⁸ points at 48 kHz). The target is smooth on it, its peaks capped, so its cepstrum is
+    // not aliased at this size; the fit below measures what is left.
+    let size = grid_size(MAX_BAND_LIMITED_TAPS, target.band);
+    let wanted = target.log_magnitude(size);
+    if wanted.iter().any(|v| !v.is_finite()) {
         return None;
     }
-    let magnitude = |size: usize| target.log_magnitude(size).iter().map(|v| v.exp()).collect();
-    let full = minimum_phase(MAX_BAND_LIMITED_TAPS, first, &magnitude);
-    let size = full.fft_size;
-    let wanted = target.log_magnitude(size);
+    let full = from_log_magnitude(&wanted, MAX_BAND_LIMITED_TAPS);
     let mut length = MIN_BAND_LIMITED_TAPS;
     loop {
-        let taps = &full.coefficients[..length.min(full.coefficients.len())];
+        let taps = &full[..length.min(full.len())];
         let got = spectrum_on_grid(taps, size);
         let error = (0..=size / 2)
             .map(|k| ((got[k].norm().ln() - wanted[k]) * 20.0 / std::f64::consts::LN_10).abs())

@@ -15,7 +15,7 @@ use rustfft::num_complex::Complex64;
 use rustfft::FftPlanner;
 
 use super::correction_band::CorrectionBand;
-use super::least_squares_fir::{residual_energy, FirSolution};
+use super::least_squares_fir::FirSolution;
 use super::noise_weight::wiener_factor;
 use crate::numeric::homomorphic::spectrum_on_grid;
 use crate::numeric::toeplitz::solve_symmetric_toeplitz;
@@ -85,13 +85,7 @@ pub fn solve_weighted(
     let r: Vec<f64> = power[..taps].iter().map(|c| c.re * scale).collect();
     let p: Vec<f64> = cross[..taps].iter().map(|c| c.re * scale).collect();
     let g = solve_symmetric_toeplitz(&r, &p)?;
-    let residual = residual_energy(h, &g, delay);
-    Some(FirSolution {
-        taps: g,
-        delay,
-        regularization,
-        residual_error_db: 10.0 * residual.max(1e-300).log10(),
-    })
+    Some(FirSolution::measured(h, g, delay, regularization))
 }
 
 #[cfg(test)]

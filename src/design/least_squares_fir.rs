@@ -33,13 +33,20 @@ pub fn solve_at_delay(
     let r = autocorrelation(h, taps, regularization);
     let rhs = window(h, taps, delay);
     let g = solve_symmetric_toeplitz(&r, &rhs)?;
-    let residual = residual_energy(h, &g, delay);
-    Some(FirSolution {
-        taps: g,
-        delay,
-        regularization,
-        residual_error_db: 10.0 * residual.max(1e-300).log10(),
-    })
+    Some(FirSolution::measured(h, g, delay, regularization))
+}
+
+impl FirSolution {
+    /// Taps `g` at delay D with their residual ‖h∗g − δ(n−D)‖² measured by convolution.
+    pub fn measured(h: &[f64], g: Vec<f64>, delay: usize, regularization: f64) -> Self {
+        let residual = residual_energy(h, &g, delay);
+        FirSolution {
+            taps: g,
+            delay,
+            regularization,
+            residual_error_db: 10.0 * residual.max(1e-300).log10(),
+        }
+    }
 }
 
 /// Tries every delay 0..=max_delay and keeps the one with the smallest residual.
@@ -174,7 +181,7 @@ fn autocorrelation(h: &[f64], taps: usize, regularization: f64) -> Vec<f64> {
 }
 
 /// ‖h∗g − δ(n − D)‖², by direct convolution.
-pub(crate) fn residual_energy(h: &[f64], g: &[f64], delay: usize) -> f64 {
+fn residual_energy(h: &[f64], g: &[f64], delay: usize) -> f64 {
     let n = h.len() + g.len() - 1;
     let mut energy = 0.0;
     for k in 0..n.max(delay + 1) {
