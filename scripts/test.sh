@@ -11,7 +11,7 @@ source scripts/lib/ensure_tools.sh
 # shellcheck source=lib/stages.sh
 source scripts/lib/stages.sh
 
-stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv \
+stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv systemd man-db \
     pulseaudio pulseaudio-utils libasound2-plugins
 ensure_cargo
 
@@ -20,7 +20,23 @@ stage "reference fixtures (numpy/scipy, pinned)" \
     env REDRESS_FIXTURES_OTHER_PATH=1 bash scripts/reference/check_fixtures.sh
 
 stage "build (tests, benches, examples)" cargo build --all-targets
-stage "cargo test" cargo test --all-targets
+# tests/service_metrics.rs leaves the figures it took here, for the outside parser below.
+metrics_samples=$(mktemp -d)
+stage "cargo test" env REDRESS_METRICS_SAMPLES_DIR="$metrics_samples" cargo test --all-targets
+stage "figures read by prometheus_client (pinned)" \
+    sh scripts/reference/check_metrics.sh "$metrics_samples"
+
+# The Debian package, installed and removed for real (root only: it changes the machine).
+deb_package() {
+    if [ "$(id -u)" -ne 0 ]; then
+        echo "   skipped: installing the package needs root" >&2
+        return 0
+    fi
+    local deb
+    deb=$(bash scripts/build-deb.sh dev)
+    REDRESS_DEB_PACKAGE="$PWD/$deb" cargo test --test package_deb
+}
+stage "Debian package: build, dpkg -i, checks, dpkg -r" deb_package
 
 # A short fuzzing run of both targets from the committed corpus (fuzz/README.md). The campaign's
 # hang limit is 1 s per input, measured alone; the slowest committed inputs take up to about 1 s

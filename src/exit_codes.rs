@@ -85,7 +85,8 @@ pub const RUN: &str = concat!(
     "Exit codes:\n",
     "  0    stopped by SIGTERM/SIGINT (after fading out) or at the end of --for\n",
     "  1    the audio devices could not be opened, the status socket could not be set up (or \
-     another service answers on it), or --true-link does not match the config\n",
+     another service answers on it), the --metrics-file cannot be written, or --true-link does \
+     not match the config\n",
     invalid!(),
     not_runnable!(),
     "  130  a second SIGTERM/SIGINT while the output fades out: stopped at once\n"

@@ -2,6 +2,7 @@
 
 mod closed_pipe;
 mod exit_codes;
+mod manual;
 mod measure_commands;
 mod number_arg;
 
@@ -14,8 +15,8 @@ use clap::{CommandFactory, FromArgMatches, Parser, Subcommand};
 use exit_codes as exit;
 use number_arg::{number, whole_in};
 use redress::control::{
-    init_logging, locate_status_socket, query_status, render_status_text, run_service,
-    ServiceError, ServiceOptions, SourceChoice, CAUTION,
+    init_logging, locate_status_socket, query_openmetrics, query_status, render_status_text,
+    run_service, FaultDrill, ServiceError, ServiceOptions, SourceChoice, CAUTION,
 };
 use redress::io::{self, check_output_files, Existing, FileRunOptions, FileRunSummary};
 use redress::model::config::{load_link, parse_link};
@@ -133,6 +134,15 @@ enum Command {
         /// /tmp/redress-UID/status.sock).
         #[arg(long)]
         socket: Option<PathBuf>,
+        /// Rewrite this file every few seconds with the running figures in the Prometheus text
+        /// format (for a textfile collector; written whole, by renaming a temporary file).
+        #[arg(long, value_name = "PATH")]
+        metrics_file: Option<PathBuf>,
+        /// With --simulate: rehearse a fault to check the watchdog, restarts and alerts:
+        /// `stall@S` (the stream stops for good S seconds after start) or `loss@S+D` (the
+        /// device vanishes at S and can be opened again D seconds later).
+        #[arg(long, requires = "simulate", value_name = "DRILL")]
+        fault_drill: Option<FaultDrill>,
         /// Debug lines too: each path's design in figures (order, structure, precision, peak
         /// boost, decay, delays, pole radius after rounding) at start and after every reload.
         #[arg(short, long, conflicts_with = "quiet")]
@@ -147,6 +157,10 @@ enum Command {
         /// Print the status document as JSON.
         #[arg(long)]
         json: bool,
+        /// Print the running figures in the OpenMetrics text format (counters over the
+        /// service's whole life, callback-time histogram, levels per channel).
+        #[arg(long, conflicts_with = "json")]
+        openmetrics: bool,
         /// Status socket (default: $XDG_RUNTIME_DIR/redress/status.sock, else
         /// /tmp/redress-UID/status.sock, else the system service's /run/redress/status.sock).
         #[arg(long)]
@@ -211,14 +225,26 @@ enum Command {
     },
     #[command(flatten)]
     Measure(measure_commands::MeasureCommand),
+    /// Write the manual pages and the bash, zsh and fish completions into a folder (used when
+    /// the package is built).
+    #[command(hide = true)]
+    PackageFiles {
+        /// The folder (created when missing).
+        dir: PathBuf,
+    },
+}
+
+/// The command-line definition as the binary uses it (and as the manual and the completions
+/// describe it): `run --help` carries the caution the service logs at start-up, which is the
+/// library's text.
+fn cli_definition() -> clap::Command {
+    Cli::command().mut_subcommand("run", |run| {
+        run.after_help(format!("{CAUTION}\n\n{}", exit::RUN))
+    })
 }
 
 fn main() -> ExitCode {
-    // `run --help` carries the caution the service logs at start-up; it is the library's text.
-    let command = Cli::command().mut_subcommand("run", |run| {
-        run.after_help(format!("{CAUTION}\n\n{}", exit::RUN))
-    });
-    let cli = match Cli::from_arg_matches(&command.get_matches()) {
+    let cli = match Cli::from_arg_matches(&cli_definition().get_matches()) {
         Ok(cli) => cli,
         Err(e) => e.exit(),
     };
@@ -275,17 +301,35 @@ fn main() -> ExitCode {
             true_link,
             run_for,
             socket,
+            metrics_file,
+            fault_drill,
             verbose,
             quiet,
         } => run(
-            config,
-            simulate,
-            true_link,
+            ServiceOptions {
+                config,
+                socket,
+                source: if simulate {
+                    SourceChoice::Simulated {
+                        truth: true_link,
+                        seed: 1,
+                        drill: fault_drill,
+                    }
+                } else {
+                    SourceChoice::Devices
+                },
+                run_for: None,
+                metrics_file,
+            },
             run_for,
-            socket,
             if quiet { -1 } else { i8::from(verbose) },
         ),
-        Command::Status { json, socket } => status(json, socket),
+        Command::Status {
+            json,
+            openmetrics,
+            socket,
+        } => status(json, openmetrics, socket),
+        Command::PackageFiles { dir } => manual::write_package_files(cli_definition(), &dir),
         Command::Devices { verbose } => devices(verbose),
         Command::Bench {
             config,
@@ -526,35 +570,15 @@ fn demo(config: Option<&Path>, seconds: f64) -> u8 {
     }
 }
 
-fn run(
-    config: PathBuf,
-    simulate: bool,
-    true_link: Option<PathBuf>,
-    run_for: Option<f64>,
-    socket: Option<PathBuf>,
-    verbosity: i8,
-) -> u8 {
+fn run(mut options: ServiceOptions, run_for: Option<f64>, verbosity: i8) -> u8 {
     init_logging(verbosity);
-    let run_for = match run_for {
+    options.run_for = match run_for {
         None => None,
         Some(s) if s.is_finite() && s > 0.0 => Some(std::time::Duration::from_secs_f64(s)),
         Some(s) => {
             eprintln!("error: --for {s}: give a positive number of seconds");
             return exit::INVALID;
         }
-    };
-    let options = ServiceOptions {
-        config,
-        socket,
-        source: if simulate {
-            SourceChoice::Simulated {
-                truth: true_link,
-                seed: 1,
-            }
-        } else {
-            SourceChoice::Devices
-        },
-        run_for,
     };
     match run_service(options) {
         Ok(()) => exit::OK,
@@ -586,8 +610,20 @@ fn print_quietly(text: &str, error: bool) {
     };
 }
 
-fn status(json: bool, socket: Option<PathBuf>) -> u8 {
+fn status(json: bool, openmetrics: bool, socket: Option<PathBuf>) -> u8 {
     let path = socket.unwrap_or_else(locate_status_socket);
+    if openmetrics {
+        return match query_openmetrics(&path) {
+            Ok(text) => {
+                print_quietly(&text, false);
+                exit::OK
+            }
+            Err(e) => {
+                print_quietly(&e.to_string(), true);
+                exit::FAILED
+            }
+        };
+    }
     match query_status(&path) {
         Ok(doc) if json => print_quietly(&format!("{doc}\n"), false),
         Ok(doc) => print_quietly(&render_status_text(&doc), false),

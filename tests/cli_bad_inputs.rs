@@ -239,6 +239,30 @@ fn catalogue(f: &Files) -> Vec<Case> {
             &["--simulate"],
         ),
         case(
+            "fault drill without simulate",
+            &["run", &echo, "--fault-drill", "stall@1"],
+            2,
+            &["--simulate"],
+        ),
+        case(
+            "fault drill of an unknown kind",
+            &["run", &echo, "--simulate", "--fault-drill", "melt@3"],
+            2,
+            &["melt", "help:", "loss@5+3"],
+        ),
+        case(
+            "device loss drill without its absence",
+            &["run", &echo, "--simulate", "--fault-drill", "loss@3"],
+            2,
+            &["+SECONDS"],
+        ),
+        case(
+            "status asked for JSON and figures at once",
+            &["status", "--json", "--openmetrics"],
+            2,
+            &["cannot be used with"],
+        ),
+        case(
             "verbose and quiet",
             &["run", &echo, "-v", "-q"],
             2,

@@ -55,6 +55,30 @@ fn reports_print_one_minus_and_no_internals() {
     assert!(!stdout(&demo).contains(MINUS_SIGN));
 }
 
+// Source: common practice — the two members of a conjugate pair at ±ω are one tone of |ω|·fs/2π
+// Hz; a listener has no use for a negative frequency.
+#[test]
+fn the_roots_table_gives_a_pair_one_tone_frequency() {
+    let report = stdout(&redress_paths(&[
+        &"check",
+        &cli_support::repo().join("configs/paging_delay.toml"),
+    ]));
+    let header = report
+        .lines()
+        .position(|l| l.contains("tone Hz"))
+        .expect("roots table");
+    let rows: Vec<&str> = report.lines().skip(header + 1).take(2).collect();
+    // paging_delay's two zeros are the pair at angle ±2.3025 rad: 5863.3 Hz at 16 kHz.
+    for row in &rows {
+        let columns: Vec<&str> = row.split_whitespace().collect();
+        assert_eq!(columns[4], "5863.3", "{row}");
+    }
+    assert_ne!(
+        rows[0].split_whitespace().nth(3),
+        rows[1].split_whitespace().nth(3)
+    );
+}
+
 // Source: common practice — text copied from a document often carries U+2212.
 #[test]
 fn a_typographic_minus_on_the_command_line_is_a_minus() {

@@ -2,7 +2,9 @@
 //!
 //! The control thread looks every tick at two things the audio side already counts: the
 //! engine's frame counter (it advances only while the capture callback runs) and the streams'
-//! error tallies. A device is taken as lost when the backend says so outright (device gone,
+//! error tallies. Ticks are a second apart while all is well and much closer while anything is
+//! amiss (`settled`), so a stall is timed from the first look that saw no new frame: a slow look
+//! never makes a short stall look long (it may make a loss noticed up to one slow tick later). A device is taken as lost when the backend says so outright (device gone,
 //! stream invalidated or moved), when errors keep coming for a while without a single frame
 //! getting through, or when no frame has got through for a long time at all. The verdict is a
 //! pure function of the observations and the times given, so it is tested without a device or
@@ -42,8 +44,12 @@ pub enum Health {
 pub struct DeviceWatch {
     frames: u64,
     errors: StreamErrorCounts,
-    last_progress: Instant,
+    /// The first look that saw no new frame since the last one that did (the opening, before
+    /// the first frame); `None` while frames flow.
+    stalled_since: Option<Instant>,
     errors_since_progress: u64,
+    /// The last look saw new frames and no new error.
+    settled: bool,
 }
 
 fn fatal(kind: Option<StreamErrorKind>) -> bool {
@@ -67,9 +73,16 @@ impl DeviceWatch {
         Self {
             frames: 0,
             errors: StreamErrorCounts::default(),
-            last_progress: now,
+            stalled_since: Some(now),
             errors_since_progress: 0,
+            settled: false,
         }
+    }
+
+    /// Whether the last look found the audio flowing without new errors (the control loop may
+    /// then look again only after its long tick).
+    pub fn settled(&self) -> bool {
+        self.settled
     }
 
     /// Takes one look: the engine's frame count and both streams' error tallies at `now`.
@@ -77,20 +90,23 @@ impl DeviceWatch {
         let new_input = errors.input.count.saturating_sub(self.errors.input.count);
         let new_output = errors.output.count.saturating_sub(self.errors.output.count);
         self.errors = errors;
+        let progressed = frames != self.frames;
+        self.settled = progressed && new_input + new_output == 0;
         if new_input > 0 && fatal(errors.input.last_kind) {
             return Health::Lost(describe("capture device", &errors.input));
         }
         if new_output > 0 && fatal(errors.output.last_kind) {
             return Health::Lost(describe("playback device", &errors.output));
         }
-        if frames != self.frames {
+        if progressed {
             self.frames = frames;
-            self.last_progress = now;
+            self.stalled_since = None;
             self.errors_since_progress = 0;
             return Health::Running;
         }
         self.errors_since_progress += new_input + new_output;
-        let stalled = now.saturating_duration_since(self.last_progress);
+        let since = *self.stalled_since.get_or_insert(now);
+        let stalled = now.saturating_duration_since(since);
         let flood = self.errors_since_progress >= ERROR_FLOOD && stalled >= FLOOD_STALL;
         if flood || (stalled >= STALL_WITH_ERRORS && self.errors_since_progress > 0) {
             return Health::Lost(format!(
@@ -249,8 +265,9 @@ mod tests {
             Health::Lost(why) => assert!(why.contains("while the devices report errors"), "{why}"),
             Health::Running => panic!("a stalled, erroring stream went unnoticed"),
         }
-        // Declared once the stall reached STALL_WITH_ERRORS after the last frame (at 20 ms).
-        assert_eq!(at, 20 + STALL_WITH_ERRORS.as_millis() as u64);
+        // Declared once the stall reached STALL_WITH_ERRORS, timed from the first look that saw
+        // no new frame (at 40 ms).
+        assert_eq!(at, 40 + STALL_WITH_ERRORS.as_millis() as u64);
     }
 
     // A backend whose server has gone (the PulseAudio plugin, for one) reports an error per
@@ -268,12 +285,46 @@ mod tests {
             output: tally(n, StreamErrorKind::Backend),
         };
         let stall_ms = FLOOD_STALL.as_millis() as u64;
+        // The first look without a frame starts the clock.
+        let first_still = 40;
         assert_eq!(
-            watch.observe(ms(t0, 20 + stall_ms - 20), 256, flood(5000)),
+            watch.observe(ms(t0, first_still), 256, flood(2000)),
+            Health::Running
+        );
+        assert_eq!(
+            watch.observe(ms(t0, first_still + stall_ms - 20), 256, flood(5000)),
             Health::Running
         );
         assert!(matches!(
-            watch.observe(ms(t0, 20 + stall_ms), 256, flood(6000)),
+            watch.observe(ms(t0, first_still + stall_ms), 256, flood(6000)),
+            Health::Lost(_)
+        ));
+    }
+
+    // A look a whole second after the last one that saw frames cannot tell when in that second
+    // the frames stopped: it takes the stall as beginning now, so a short hiccup just before a
+    // slow look is never judged a long one.
+    #[test]
+    fn a_slow_look_does_not_make_a_short_stall_look_long() {
+        let t0 = Instant::now();
+        let mut watch = DeviceWatch::new(t0);
+        assert_eq!(
+            watch.observe(ms(t0, 1000), 48_000, StreamErrorCounts::default()),
+            Health::Running
+        );
+        assert!(watch.settled());
+        let errors = StreamErrorCounts {
+            input: tally(3, StreamErrorKind::Backend),
+            output: StreamErrorTally::default(),
+        };
+        assert_eq!(watch.observe(ms(t0, 2000), 48_000, errors), Health::Running);
+        assert!(
+            !watch.settled(),
+            "a look that saw no frame asks for closer looks"
+        );
+        assert_eq!(watch.observe(ms(t0, 2980), 48_000, errors), Health::Running);
+        assert!(matches!(
+            watch.observe(ms(t0, 3000), 48_000, errors),
             Health::Lost(_)
         ));
     }

@@ -21,6 +21,8 @@ pub enum ServiceError {
     },
     Simulation(PacedLinkError),
     Audio(String),
+    /// The metrics file cannot be written (checked once at start-up).
+    MetricsFile(String),
 }
 
 impl std::fmt::Display for ServiceError {
@@ -44,6 +46,11 @@ impl std::fmt::Display for ServiceError {
             ),
             ServiceError::Simulation(e) => write!(f, "{e}"),
             ServiceError::Audio(e) => write!(f, "{e}"),
+            ServiceError::MetricsFile(why) => write!(
+                f,
+                "{why}\n  help: name a file in a folder that exists and the service may write \
+                 (under the system unit, add the folder to ReadWritePaths=)"
+            ),
         }
     }
 }

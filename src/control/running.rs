@@ -3,10 +3,15 @@
 
 use std::time::{Duration, Instant};
 
+use super::fault_drill::FaultDrill;
 use super::status::{AudioStatus, SimulatedStatus};
+use super::totals::EngineCounters;
 use super::ServiceError;
 use crate::engine::{engine_pair, EngineControl, EngineSettings, Equalizer};
-use crate::io::live::{start_duplex, DeviceRequest, DuplexStreams, StreamErrorCounts};
+use crate::io::live::{
+    start_duplex, DeviceRequest, DuplexStreams, StreamErrorCounts, StreamErrorKind,
+    StreamErrorTally,
+};
 use crate::io::paced_link::{Alignment, PacedLink};
 use crate::model::{AudioSettings, EngineOptions, Link};
 use crate::numeric::poly::leading_zeros;
@@ -25,8 +30,26 @@ pub enum AudioSource {
     /// The sound devices named in the config's [audio] table.
     Devices,
     /// A simulated link running in real time: `truth` is what the link really does (the config
-    /// being run is the user's model of it, possibly a rough one).
-    Simulated { truth: Box<Link>, seed: u64 },
+    /// being run is the user's model of it, possibly a rough one); `drill`, a fault rehearsed on
+    /// it.
+    Simulated {
+        truth: Box<Link>,
+        seed: u64,
+        drill: Option<ArmedDrill>,
+    },
+}
+
+/// A fault drill with the moment its times count from (the service's start).
+#[derive(Debug, Clone, Copy)]
+pub struct ArmedDrill {
+    pub drill: FaultDrill,
+    pub origin: Instant,
+}
+
+impl ArmedDrill {
+    fn begins(&self) -> Instant {
+        self.origin + self.drill.at()
+    }
 }
 
 enum Driver {
@@ -43,6 +66,11 @@ pub struct RunningAudio {
     pub engine_options: EngineOptions,
     description: String,
     block_frames: Option<usize>,
+    /// When these streams were opened, and the drill they run under, if any.
+    opened: Instant,
+    drill: Option<ArmedDrill>,
+    /// A stall drill has stopped the simulated stream.
+    stalled: bool,
 }
 
 impl RunningAudio {
@@ -53,6 +81,21 @@ impl RunningAudio {
         generation: u64,
         source: &AudioSource,
     ) -> Result<Self, ServiceError> {
+        let opened = Instant::now();
+        let drill = match source {
+            AudioSource::Simulated { drill, .. } => *drill,
+            AudioSource::Devices => None,
+        };
+        if let Some(armed) = drill {
+            if !armed
+                .drill
+                .device_present(opened.saturating_duration_since(armed.origin))
+            {
+                return Err(ServiceError::Audio(
+                    "the simulated device is away (fault drill `loss`)".to_string(),
+                ));
+            }
+        }
         let set = Equalizer::from_plan(plan, generation).map_err(ServiceError::NotRunnable)?;
         let settings = EngineSettings::from_options(
             &link.runtime.engine,
@@ -61,7 +104,7 @@ impl RunningAudio {
         );
         let (engine, control) = engine_pair(settings, Some(set));
         let (driver, description, block_frames) = match source {
-            AudioSource::Simulated { truth, seed } => {
+            AudioSource::Simulated { truth, seed, .. } => {
                 let block = link
                     .runtime
                     .audio
@@ -111,6 +154,9 @@ impl RunningAudio {
             engine_options: link.runtime.engine.clone(),
             description,
             block_frames,
+            opened,
+            drill,
+            stalled: false,
         })
     }
 
@@ -138,13 +184,11 @@ impl RunningAudio {
     }
 
     pub fn status(&self, restarts: u64) -> AudioStatus {
-        let (kind, stream_errors) = match &self.driver {
-            Driver::Devices(d) => {
-                let e = d.stream_errors();
-                ("devices", e.input.count + e.output.count)
-            }
-            Driver::Simulated(_) => ("simulated link", 0),
+        let kind = match &self.driver {
+            Driver::Devices(_) => "devices",
+            Driver::Simulated(_) => "simulated link",
         };
+        let stream_errors = self.stream_error_count();
         AudioStatus {
             kind: kind.to_string(),
             description: self.description.clone(),
@@ -170,21 +214,74 @@ impl RunningAudio {
             .load(std::sync::atomic::Ordering::Relaxed)
     }
 
-    /// Both streams' error tallies; `None` for the simulated link, which has no device to lose.
+    /// Both streams' error tallies; `None` for the simulated link, which has no device to lose
+    /// (unless a `loss` drill is rehearsed on it: then its device is reported gone when the
+    /// drill begins).
     pub fn device_errors(&self) -> Option<StreamErrorCounts> {
         match &self.driver {
             Driver::Devices(d) => Some(d.stream_errors()),
-            Driver::Simulated(_) => None,
+            Driver::Simulated(_) => {
+                let armed = self.drill?;
+                let FaultDrill::Loss { .. } = armed.drill else {
+                    return None;
+                };
+                let begins = armed.begins();
+                let gone = self.opened < begins && Instant::now() >= begins;
+                let mut errors = StreamErrorCounts::default();
+                if gone {
+                    errors.input = StreamErrorTally {
+                        count: 1,
+                        last_kind: Some(StreamErrorKind::DeviceNotAvailable),
+                    };
+                }
+                Some(errors)
+            }
         }
     }
 
+    /// Carries out a `stall` drill once its time has come: the simulated stream stops for good
+    /// (its thread ends; the engine's frame count stops). Returns whether it stalled just now.
+    pub fn rehearse_stall(&mut self, now: Instant) -> bool {
+        let Some(armed) = self.drill else {
+            return false;
+        };
+        if self.stalled || !matches!(armed.drill, FaultDrill::Stall { .. }) || now < armed.begins()
+        {
+            return false;
+        }
+        if let Driver::Simulated(p) = &mut self.driver {
+            p.stop();
+        }
+        self.stalled = true;
+        true
+    }
+
+    /// Errors the streams have reported so far (0 for the simulated link).
+    pub fn stream_error_count(&self) -> u64 {
+        match &self.driver {
+            Driver::Devices(d) => {
+                let e = d.stream_errors();
+                e.input.count + e.output.count
+            }
+            Driver::Simulated(_) => 0,
+        }
+    }
+
+    /// The engine's counters as of now, with the streams' error count.
+    pub fn counters(&self) -> EngineCounters {
+        EngineCounters::read(&self.control.stats(), self.stream_error_count())
+    }
+
     /// Stops the driver at once, without a fade (the devices are gone: nothing would play it).
-    pub fn stop_now(mut self) {
+    /// Returns the engine's final counters.
+    pub fn stop_now(mut self) -> EngineCounters {
+        let stream_errors = self.stream_error_count();
         match self.driver {
             Driver::Devices(d) => d.stop(),
             Driver::Simulated(mut p) => p.stop(),
         }
         self.control.collect_returned();
+        EngineCounters::read(&self.control.stats(), stream_errors)
     }
 
     pub fn simulated(&self) -> Option<SimulatedStatus> {
@@ -203,8 +300,10 @@ impl RunningAudio {
 
     /// Fades the output to silence (waiting at most `timeout` for the engine to finish it),
     /// waits until the fade has played through the ring and the device's buffer (at most
-    /// [`PLAYOUT_WAIT`]), then stops the driver: a stop cuts nothing but silence.
-    pub fn fade_out_and_stop(mut self, timeout: Duration) {
+    /// [`PLAYOUT_WAIT`]), then stops the driver: a stop cuts nothing but silence. Returns the
+    /// engine's final counters.
+    pub fn fade_out_and_stop(mut self, timeout: Duration) -> EngineCounters {
+        let stream_errors = self.stream_error_count();
         self.control.request_fade_out();
         let started = Instant::now();
         while !self.control.fade_out_done() && started.elapsed() < timeout {
@@ -223,6 +322,7 @@ impl RunningAudio {
             Driver::Simulated(mut p) => p.stop(),
         }
         self.control.collect_returned();
+        EngineCounters::read(&self.control.stats(), stream_errors)
     }
 }
 

@@ -1,33 +1,31 @@
-//! `redress run`: the control thread of the live service.
+//! `redress run`: the state of the live service's control side, and what it does on each event.
 //!
 //! It owns every slow or fallible step — reading and checking the config, designing, rounding,
 //! building filter sets, logging, answering status requests — and talks to the audio thread
 //! only through the engine's queues and counters. Nothing that goes wrong after start-up stops
-//! the audio: a bad reload is logged and the running filters carry on.
+//! the audio: a bad reload is logged and the running filters carry on. The loop that drives it
+//! is in `event_loop.rs`; what it publishes (status, figures, notifications) in `publish.rs`.
 
 use std::path::{Path, PathBuf};
-use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
+use crossbeam_channel::Receiver;
 use log::{debug, error, info, warn};
 
 use super::device_watch::{DeviceWatch, Health, RecoveryPacer};
+use super::fault_drill::FaultDrill;
+use super::metrics_file::MetricsFile;
+use super::notify::Notifier;
 use super::running::{AudioSource, RunningAudio};
-use super::signals::SignalFlags;
-use super::socket_path::{current_uid, prepare_default_socket};
-use super::status::{path_summaries, AudioStatus, ReloadStatus, ServiceStatus};
-use super::status_server::{SharedDocument, StatusServer};
-use super::ServiceError;
+use super::status::{path_summaries, AudioStatus, ReloadStatus};
+use super::status_server::SharedDocument;
+use super::totals::{PeakHold, RunningTotals};
+use super::watchdog::WatchdogGate;
 use crate::engine::{EngineEvent, Equalizer, StatsSnapshot};
 use crate::io::paced_link::check_true_link;
 use crate::model::config::load_link;
 use crate::model::Link;
 use crate::pipeline::{plan_link, LinkPlan};
-
-/// How often the control loop wakes.
-const TICK: Duration = Duration::from_millis(20);
-/// How often the status document is refreshed.
-const STATUS_EVERY: Duration = Duration::from_millis(250);
 
 /// What `redress run` was asked to do.
 #[derive(Debug, Clone)]
@@ -38,6 +36,8 @@ pub struct ServiceOptions {
     pub source: SourceChoice,
     /// Stop by itself after this long (demos and tests); `None` runs until TERM/INT.
     pub run_for: Option<Duration>,
+    /// Rewrite this file with the figures (Prometheus text format) every few seconds.
+    pub metrics_file: Option<PathBuf>,
 }
 
 /// Where the audio comes from.
@@ -45,213 +45,107 @@ pub struct ServiceOptions {
 pub enum SourceChoice {
     Devices,
     /// A simulated link; `truth` names the config describing the real link (default: the
-    /// config being run).
+    /// config being run); `drill`, a fault to rehearse on it.
     Simulated {
         truth: Option<PathBuf>,
         seed: u64,
+        drill: Option<FaultDrill>,
     },
 }
 
+/// The outcome of designing a reloaded config on the worker thread.
+pub(super) type DesignOutcome = Result<(Link, LinkPlan), String>;
+
 /// The service's state on the control thread.
-struct Service {
-    options: ServiceOptions,
-    source: AudioSource,
-    link: Link,
-    plan: LinkPlan,
-    generation: u64,
-    audio: Option<RunningAudio>,
-    reloads: ReloadStatus,
-    restarts: u64,
+pub(super) struct Service {
+    pub(super) options: ServiceOptions,
+    pub(super) source: AudioSource,
+    pub(super) link: Link,
+    pub(super) plan: LinkPlan,
+    pub(super) generation: u64,
+    pub(super) audio: Option<RunningAudio>,
+    pub(super) reloads: ReloadStatus,
+    pub(super) restarts: u64,
     /// Stream errors already logged, and when the last such line was written.
-    seen_stream_errors: u64,
-    last_error_log: Option<Instant>,
+    pub(super) seen_stream_errors: u64,
+    pub(super) last_error_log: Option<Instant>,
     /// Input faults already logged, and when the last such line was written.
-    seen_input_faults: u64,
-    last_fault_log: Option<Instant>,
-    started: Instant,
-    document: SharedDocument,
+    pub(super) seen_input_faults: u64,
+    pub(super) last_fault_log: Option<Instant>,
+    pub(super) started: Instant,
+    pub(super) document: SharedDocument,
     /// A filter set accepted by a reload but not yet taken by the engine (its inbox was full:
     /// reloads came faster than crossfades). Replaced by a newer one; sent on a later tick.
-    pending: Option<Equalizer>,
+    pub(super) pending: Option<Equalizer>,
     /// The design of a reloaded config, under way on a worker thread.
-    design: Option<std::sync::mpsc::Receiver<Result<(Link, LinkPlan), String>>>,
+    pub(super) design: Option<Receiver<DesignOutcome>>,
     /// A HUP came while a design was under way: design again once it is done.
-    reload_again: bool,
+    pub(super) reload_again: bool,
     /// Watches the devices of the running streams for loss.
-    watch: DeviceWatch,
+    pub(super) watch: DeviceWatch,
     /// Set while the devices are lost and being reopened.
-    recovery: Option<Recovery>,
+    pub(super) recovery: Option<Recovery>,
     /// Paces the attempts to reopen, across losses.
-    pacer: RecoveryPacer,
-    device_losses: u64,
-    recoveries: u64,
-    last_loss: Option<String>,
-    last_retry_error: Option<String>,
+    pub(super) pacer: RecoveryPacer,
+    pub(super) device_losses: u64,
+    pub(super) recoveries: u64,
+    pub(super) last_loss: Option<String>,
+    pub(super) last_retry_error: Option<String>,
     /// What was last published about the audio and the engine, shown while there is none.
-    last_audio: Option<AudioStatus>,
-    last_engine: Option<StatsSnapshot>,
+    pub(super) last_audio: Option<AudioStatus>,
+    pub(super) last_engine: Option<StatsSnapshot>,
+    /// Counters of the engines retired so far (stream restarts, device losses).
+    pub(super) totals: RunningTotals,
+    /// Peak levels over at least one tick, per channel (linear).
+    pub(super) input_peaks: PeakHold,
+    pub(super) output_peaks: PeakHold,
+    pub(super) notifier: Notifier,
+    /// Present when the init system asked for watchdog pings.
+    pub(super) watchdog: Option<WatchdogGate>,
+    /// `RELOADING=1` was sent and its `READY=1` is still owed.
+    pub(super) reloading: bool,
+    /// The last tick saw something under way: look again soon rather than after the long tick.
+    pub(super) busy: bool,
+    pub(super) metrics_file: Option<MetricsFile>,
 }
 
 /// The devices are gone: when they went, when to try them again, and how many tries so far.
-struct Recovery {
-    since: Instant,
-    next_try: Instant,
-    attempts: u32,
-}
-
-/// Runs the service until TERM/INT (or `run_for`). Returns once the audio has faded out and
-/// stopped. Errors only at start-up.
-pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
-    let signals = SignalFlags::install().map_err(ServiceError::Signals)?;
-    if current_uid() == Some(0) {
-        warn!(
-            "running as root: a service like this needs no privileges; run it as an ordinary \
-             user (see the example systemd unit)"
-        );
-    }
-    let link = load_link(&options.config).map_err(|e| ServiceError::Config(Box::new(e)))?;
-    let plan = plan_link(&link);
-    if !plan.is_runnable() {
-        return Err(ServiceError::NotRunnable(
-            crate::engine::EngineError::NotRunnable(plan.problems()),
-        ));
-    }
-    let source = match &options.source {
-        SourceChoice::Devices => AudioSource::Devices,
-        SourceChoice::Simulated { truth, seed } => {
-            let truth = match truth {
-                Some(p) => load_link(p).map_err(|e| ServiceError::Config(Box::new(e)))?,
-                None => link.clone(),
-            };
-            check_true_link(&truth, &link).map_err(ServiceError::Simulation)?;
-            AudioSource::Simulated {
-                truth: Box::new(truth),
-                seed: *seed,
-            }
-        }
-    };
-    // Until the first real document is published, clients are told to wait.
-    let starting = serde_json::json!({ "error": "the service is starting; ask again shortly" });
-    let document: SharedDocument = Arc::new(Mutex::new(Arc::new(starting.to_string())));
-    let socket = match &options.socket {
-        Some(path) => path.clone(),
-        None => {
-            let (path, fell_back) =
-                prepare_default_socket().map_err(|why| ServiceError::Socket {
-                    path: super::socket_path::default_socket_path(),
-                    why,
-                })?;
-            if let Some(why) = fell_back {
-                warn!("{why}: the status socket is {} instead", path.display());
-            }
-            path
-        }
-    };
-    let server = StatusServer::start(&socket, Arc::clone(&document))?;
-    if matches!(source, AudioSource::Devices) {
-        // Once, before the first sound; device recoveries and restarts do not repeat it.
-        warn!("{}", super::caution::start_up_caution(&plan));
-    }
-    let audio = RunningAudio::start(&link, &plan, 1, &source)?;
-    let mut service = Service {
-        options,
-        source,
-        link,
-        plan,
-        generation: 1,
-        audio: Some(audio),
-        reloads: ReloadStatus::default(),
-        restarts: 0,
-        seen_stream_errors: 0,
-        last_error_log: None,
-        seen_input_faults: 0,
-        last_fault_log: None,
-        started: Instant::now(),
-        document,
-        pending: None,
-        design: None,
-        reload_again: false,
-        watch: DeviceWatch::new(Instant::now()),
-        recovery: None,
-        pacer: RecoveryPacer::default(),
-        device_losses: 0,
-        recoveries: 0,
-        last_loss: None,
-        last_retry_error: None,
-        last_audio: None,
-        last_engine: None,
-    };
-    info!(
-        "running {} (generation 1) on {}; status on {}",
-        service.options.config.display(),
-        service.audio_description(),
-        server.path().display()
-    );
-
-    for p in path_summaries(&service.plan) {
-        info!(
-            "path `{}`: {} in {}; gives up: {}",
-            p.label, p.method_name, p.structure_name, p.gives_up
-        );
-    }
-    super::plan_details::log_plan_details(&service.plan);
-    service.publish();
-    let mut last_status = Instant::now();
-    loop {
-        std::thread::sleep(TICK);
-        if signals.stop_requested() {
-            info!("stop requested: fading out");
-            break;
-        }
-        if signals.take_reload() {
-            service.request_reload();
-        }
-        service.poll_design();
-        service.send_pending();
-        service.watch_devices();
-        service.pump_events();
-        if let Some(limit) = service.options.run_for {
-            if service.started.elapsed() >= limit {
-                info!("run time of {:.1} s reached", limit.as_secs_f64());
-                signals.request_stop();
-            }
-        }
-        if last_status.elapsed() >= STATUS_EVERY {
-            service.publish();
-            last_status = Instant::now();
-        }
-    }
-    let fade = Duration::from_secs_f64(service.link.runtime.engine.fade_out_ms / 1000.0);
-    if let Some(audio) = service.audio.take() {
-        audio.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
-    }
-    drop(server);
-    info!("stopped");
-    Ok(())
+pub(super) struct Recovery {
+    pub(super) since: Instant,
+    pub(super) next_try: Instant,
+    pub(super) attempts: u32,
 }
 
 impl Service {
-    fn audio_description(&self) -> String {
+    pub(super) fn audio_description(&self) -> String {
         self.audio
             .as_ref()
             .map(|a| a.status(self.restarts).description)
             .unwrap_or_default()
     }
 
-    /// Re-reads the config; on any problem logs it and keeps the running filters.
+    /// The running engine's final counters join the totals as it is stopped.
+    fn retire(&mut self, counters: &super::totals::EngineCounters) {
+        self.totals.retire(counters);
+    }
+
     /// A HUP: starts reading and designing the config on a worker thread, so a long design
     /// (a high-order channel takes seconds) never stops the control loop from watching the
-    /// devices, draining the engine's queues and keeping the status fresh. A HUP that arrives
+    /// devices, draining the engine's queues and answering status requests. A HUP that arrives
     /// while a design is under way asks for one more, of the file as it is then.
-    fn request_reload(&mut self) {
+    pub(super) fn request_reload(&mut self) {
         if self.design.is_some() {
             debug!("reload requested while one is being designed: one more will follow");
             self.reload_again = true;
             return;
         }
+        if !self.reloading {
+            self.reloading = true;
+            self.notifier.reloading();
+        }
         let path = self.options.config.clone();
         info!("reload requested: reading {}", path.display());
-        let (tx, rx) = std::sync::mpsc::channel();
+        let (tx, rx) = crossbeam_channel::bounded(1);
         let worker = path.clone();
         let spawned = std::thread::Builder::new()
             .name("redress-design".into())
@@ -263,32 +157,28 @@ impl Service {
             // No thread to be had: design here, as the loop would wait for it anyway.
             Err(_) => {
                 let outcome = design_config(&path);
-                self.finish_reload(outcome);
+                self.design_done(outcome);
             }
         }
     }
 
-    /// Takes a finished design, if there is one, and starts the next if another HUP came.
-    fn poll_design(&mut self) {
-        let Some(rx) = self.design.as_ref() else {
-            return;
-        };
-        let outcome = match rx.try_recv() {
-            Ok(outcome) => outcome,
-            Err(std::sync::mpsc::TryRecvError::Empty) => return,
-            Err(std::sync::mpsc::TryRecvError::Disconnected) => {
-                Err("the design of the new configuration failed unexpectedly".to_string())
-            }
-        };
+    /// A design finished (or its worker died): swap it in or reject it, start the next if
+    /// another HUP came, and tell the init system the reload is over when none is left.
+    pub(super) fn design_done(&mut self, outcome: DesignOutcome) {
         self.design = None;
         self.finish_reload(outcome);
         if std::mem::take(&mut self.reload_again) {
             self.request_reload();
         }
+        if self.design.is_none() && self.reloading {
+            self.reloading = false;
+            let summary = self.summary();
+            self.notifier.ready(&summary);
+        }
     }
 
     /// Swaps in a designed configuration, or logs why it cannot be, keeping the running one.
-    fn finish_reload(&mut self, outcome: Result<(Link, LinkPlan), String>) {
+    fn finish_reload(&mut self, outcome: DesignOutcome) {
         let (link, plan) = match outcome {
             Ok(designed) => designed,
             Err(why) => return self.reject(why),
@@ -306,7 +196,8 @@ impl Service {
             if let Some(old) = self.audio.take() {
                 self.last_audio = Some(old.status(self.restarts));
                 self.last_engine = Some(old.control.snapshot());
-                old.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
+                let last = old.fade_out_and_stop(fade * 2 + Duration::from_millis(200));
+                self.retire(&last);
             }
             self.seen_stream_errors = 0;
             self.pending = None;
@@ -345,6 +236,7 @@ impl Service {
                     if self.pending.replace(set).is_some() {
                         debug!("a reload was superseded before the engine took it");
                     }
+                    self.busy = true;
                 }
             }
         }
@@ -360,6 +252,8 @@ impl Service {
             );
         }
         super::plan_details::log_plan_details(&self.plan);
+        // Look again soon: the crossfade's events, a set still waiting.
+        self.busy = true;
         self.publish();
     }
 
@@ -385,7 +279,7 @@ impl Service {
     }
 
     /// Hands the engine a filter set that was waiting for room in its inbox.
-    fn send_pending(&mut self) {
+    pub(super) fn send_pending(&mut self) {
         let (Some(set), Some(audio)) = (self.pending.take(), self.audio.as_mut()) else {
             return;
         };
@@ -394,29 +288,46 @@ impl Service {
         }
     }
 
-    /// Notices lost devices, and reopens them with exponential back-off. The configuration,
-    /// its plan and its generation stay as they are throughout; only the streams are rebuilt.
-    fn watch_devices(&mut self) {
+    /// Notices lost devices (on a tick). The configuration, its plan and its generation stay
+    /// as they are throughout; only the streams are rebuilt, by [`Service::retry_devices`].
+    pub(super) fn watch_devices(&mut self) {
         let now = Instant::now();
-        if let Some(audio) = self.audio.as_ref() {
-            let Some(errors) = audio.device_errors() else {
-                return;
-            };
-            let Health::Lost(why) = self.watch.observe(now, audio.frames(), errors) else {
-                return;
-            };
-            if let Some(audio) = self.audio.take() {
-                self.last_audio = Some(audio.status(self.restarts));
-                self.last_engine = Some(audio.control.snapshot());
-                audio.stop_now();
-            }
-            self.enter_recovery(why);
+        let Some(audio) = self.audio.as_mut() else {
             return;
+        };
+        if audio.rehearse_stall(now) {
+            warn!("fault drill: the simulated stream stalls now, for good");
         }
+        let Some(errors) = audio.device_errors() else {
+            return;
+        };
+        let health = self.watch.observe(now, audio.frames(), errors);
+        if !self.watch.settled() {
+            self.busy = true;
+        }
+        let Health::Lost(why) = health else {
+            return;
+        };
+        if let Some(audio) = self.audio.take() {
+            self.last_audio = Some(audio.status(self.restarts));
+            self.last_engine = Some(audio.control.snapshot());
+            let last = audio.stop_now();
+            self.retire(&last);
+        }
+        self.enter_recovery(why);
+    }
+
+    /// When the next attempt to reopen lost devices is due.
+    pub(super) fn next_retry(&self) -> Option<Instant> {
+        self.recovery.as_ref().map(|r| r.next_try)
+    }
+
+    /// Reopens lost devices once the back-off's wait is over.
+    pub(super) fn retry_devices(&mut self) {
         let Some(recovery) = self.recovery.as_mut() else {
             return;
         };
-        if now < recovery.next_try {
+        if Instant::now() < recovery.next_try {
             return;
         }
         recovery.attempts += 1;
@@ -436,6 +347,7 @@ impl Service {
                 self.recoveries += 1;
                 self.restarts += 1;
                 self.watch = DeviceWatch::new(Instant::now());
+                self.busy = true;
             }
             Err(e) => {
                 let wait = self.pacer.failed();
@@ -462,12 +374,12 @@ impl Service {
     }
 
     /// Logs the engine's events and frees the filter sets it has finished with.
-    fn pump_events(&mut self) {
+    pub(super) fn pump_events(&mut self) {
         let Some(audio) = self.audio.as_mut() else {
             return;
         };
         audio.control.collect_returned();
-        let errors = audio.status(self.restarts).stream_errors;
+        let errors = audio.stream_error_count();
         // At most one line a second: a failing backend can report thousands of errors a tick.
         let quiet = self
             .last_error_log
@@ -502,91 +414,56 @@ impl Service {
             );
             self.seen_input_faults = faults;
         }
-        for event in audio.control.drain_events() {
-            match event {
-                EngineEvent::SwapStarted { generation } => {
-                    info!("crossfade to generation {generation} started")
-                }
-                EngineEvent::SwapCompleted { generation } => {
-                    info!("generation {generation} is running")
-                }
-                EngineEvent::SwapAborted { generation } => warn!(
-                    "generation {generation} ran away during its crossfade and was dropped; \
-                     the previous filters keep running"
-                ),
-                EngineEvent::InstabilityTrip {
-                    generation,
-                    channel,
-                    non_finite,
-                    fallback,
-                    now_running,
-                } => warn!(
-                    "instability guard: generation {generation} {} on channel {channel}; that \
-                     channel's linked group reset and fell back to {} (generation \
-                     {now_running} running)",
-                    if non_finite {
-                        "produced a non-finite sample"
-                    } else {
-                        "ran beyond its own gain bound"
-                    },
-                    match fallback {
-                        crate::engine::Fallback::LastGood => "the last good filters",
-                        crate::engine::Fallback::Bypass => "bypass",
-                    }
-                ),
-                EngineEvent::FadeOutComplete => {}
-            }
+        let events = audio.control.drain_events();
+        if !events.is_empty() {
+            // Something is under way (a crossfade, a trip): look again soon.
+            self.busy = true;
         }
-    }
-
-    /// Renders the status document for the socket.
-    fn publish(&self) {
-        let (mut audio_status, engine, simulated) = match self.audio.as_ref() {
-            Some(audio) => (
-                audio.status(self.restarts),
-                audio.control.snapshot(),
-                audio.simulated(),
-            ),
-            // Devices lost: the last known figures, marked as recovering.
-            None => match (&self.last_audio, &self.last_engine) {
-                (Some(a), Some(e)) => (a.clone(), e.clone(), None),
-                _ => return,
-            },
-        };
-        if self.recovery.is_some() {
-            audio_status.state = "recovering".to_string();
-        }
-        audio_status.device_losses = self.device_losses;
-        audio_status.recoveries = self.recoveries;
-        audio_status.last_loss = self.last_loss.clone();
-        audio_status.last_retry_error = self.last_retry_error.clone();
-        let status = ServiceStatus {
-            schema: "redress-service-status",
-            schema_version: super::status::STATUS_SCHEMA_VERSION,
-            version: env!("CARGO_PKG_VERSION"),
-            pid: std::process::id(),
-            config_path: display(&self.options.config),
-            config_generation: self.generation,
-            uptime_seconds: self.started.elapsed().as_secs_f64(),
-            audio: audio_status,
-            reloads: self.reloads.clone(),
-            paths: path_summaries(&self.plan),
-            engine,
-            simulated,
-        };
-        match serde_json::to_string(&status) {
-            Ok(text) => {
-                if let Ok(mut doc) = self.document.lock() {
-                    *doc = Arc::new(text);
-                }
-            }
-            Err(e) => warn!("could not render the status document: {e}"),
+        for event in events {
+            log_event(event);
         }
     }
 }
 
+/// One log line per engine event.
+fn log_event(event: EngineEvent) {
+    match event {
+        EngineEvent::SwapStarted { generation } => {
+            info!("crossfade to generation {generation} started")
+        }
+        EngineEvent::SwapCompleted { generation } => {
+            info!("generation {generation} is running")
+        }
+        EngineEvent::SwapAborted { generation } => warn!(
+            "generation {generation} ran away during its crossfade and was dropped; the \
+             previous filters keep running"
+        ),
+        EngineEvent::InstabilityTrip {
+            generation,
+            channel,
+            non_finite,
+            fallback,
+            now_running,
+        } => warn!(
+            "instability guard: generation {generation} {} on channel {channel}; that \
+             channel's linked group reset and fell back to {} (generation {now_running} \
+             running)",
+            if non_finite {
+                "produced a non-finite sample"
+            } else {
+                "ran beyond its own gain bound"
+            },
+            match fallback {
+                crate::engine::Fallback::LastGood => "the last good filters",
+                crate::engine::Fallback::Bypass => "bypass",
+            }
+        ),
+        EngineEvent::FadeOutComplete => {}
+    }
+}
+
 /// Reads, checks and designs the config at `path` (on the design worker thread).
-fn design_config(path: &Path) -> Result<(Link, LinkPlan), String> {
+pub(super) fn design_config(path: &Path) -> DesignOutcome {
     let link = load_link(path).map_err(|e| e.to_string())?;
     let plan = plan_link(&link);
     if !plan.is_runnable() {
@@ -596,8 +473,4 @@ fn design_config(path: &Path) -> Result<(Link, LinkPlan), String> {
         ));
     }
     Ok((link, plan))
-}
-
-fn display(path: &Path) -> String {
-    path.display().to_string()
 }

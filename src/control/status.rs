@@ -236,7 +236,7 @@ pub fn render_status_text(doc: &Value) -> String {
             .unwrap_or_default()
     };
     out.push_str(&format!(
-        "levels       in {} dBFS, out {} dBFS (peaks over the last quarter second)\n",
+        "levels       in {} dBFS, out {} dBFS (peaks over the last second or so)\n",
         levels("input_peak_dbfs"),
         levels("output_peak_dbfs")
     ));

@@ -1,12 +1,17 @@
 //! The status socket: a local stream socket, owner-only, answering one request per connection.
 //!
-//! Protocol (ours): the client sends one line, `status`; the server answers with one line of
-//! JSON (the service's status document) and closes. Anything else gets `{"error": …}`.
-//! The server runs on its own thread and only ever reads a pre-rendered document. Each
-//! connection is answered on a short-lived thread of its own, at most [`MAX_CLIENTS`] at once
-//! (more are told the service is busy and closed at once), each bounded by the timeouts below:
-//! a slow, silent or hostile client holds one slot for at most about a second, never delays the
-//! others by more than that, and never touches the control thread or the audio thread.
+//! Protocol (ours): the client sends one line, `status` or `openmetrics`; the server answers
+//! with the service's status document as one line of JSON, or with its figures in the
+//! OpenMetrics text format, and closes. Anything else gets `{"error": …}`.
+//!
+//! The server thread blocks in `accept` (it costs nothing while nobody asks). Each connection is
+//! answered on a short-lived thread of its own, at most [`MAX_CLIENTS`] at once (more are told
+//! the service is busy, and a reaper thread closes them a moment later), each bounded by the
+//! timeouts below: a slow, silent or hostile client holds one slot for at most about a second,
+//! never delays the others by more than that, and never touches the audio thread. A client
+//! thread asks the control loop for a fresh answer over a channel; if the loop does not answer
+//! within [`FRESH_WAIT`] (busy restarting the streams, say), the last answer it published is
+//! given instead.
 
 use std::io::{ErrorKind, Read, Write};
 use std::os::unix::fs::FileTypeExt;
@@ -16,6 +21,8 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
+
+use crossbeam_channel::{Receiver, Sender};
 
 use super::socket_path::{lock_socket, prepare_private_dir, restrict_socket, LockRefused};
 use super::ServiceError;
@@ -30,11 +37,53 @@ pub const MAX_CLIENTS: usize = 32;
 /// Refused connections kept open for a moment (so the refusal is read, not reset); beyond this
 /// many they are closed at once.
 const MAX_REFUSED: usize = 256;
-/// Stack of a client thread: it only copies a pre-rendered document.
+/// Stack of a client thread: it only copies a rendered document.
 const CLIENT_STACK_BYTES: usize = 64 * 1024;
+/// How long a client thread waits for the control loop's fresh answer before handing out the
+/// last one published.
+pub const FRESH_WAIT: Duration = Duration::from_millis(250);
 
-/// The document the server hands out, replaced whole by the control thread.
-pub type SharedDocument = Arc<Mutex<Arc<String>>>;
+/// What a client asked for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RequestKind {
+    /// The status document (JSON).
+    Status,
+    /// The figures in the OpenMetrics text format.
+    OpenMetrics,
+}
+
+/// A request passed to the control loop; it renders the answer and sends it back.
+#[derive(Debug)]
+pub struct StatusRequest {
+    pub kind: RequestKind,
+    pub reply: Sender<Arc<String>>,
+}
+
+/// The last answers the control loop published, handed out when it cannot answer in time.
+#[derive(Debug, Clone)]
+pub struct Published {
+    pub status: Arc<String>,
+    pub openmetrics: Arc<String>,
+}
+
+impl Published {
+    fn get(&self, kind: RequestKind) -> Arc<String> {
+        match kind {
+            RequestKind::Status => Arc::clone(&self.status),
+            RequestKind::OpenMetrics => Arc::clone(&self.openmetrics),
+        }
+    }
+}
+
+/// The answers shared with the client threads, replaced whole by the control thread.
+pub type SharedDocument = Arc<Mutex<Published>>;
+
+/// Where client threads send their requests.
+#[derive(Clone)]
+struct Desk {
+    document: SharedDocument,
+    requests: Sender<StatusRequest>,
+}
 
 pub struct StatusServer {
     path: PathBuf,
@@ -47,8 +96,13 @@ pub struct StatusServer {
 
 impl StatusServer {
     /// Takes the socket's single-instance lock (refusing if another instance holds it), then
-    /// binds the socket (taking over a stale one) and starts answering.
-    pub fn start(path: &Path, document: SharedDocument) -> Result<Self, ServiceError> {
+    /// binds the socket (taking over a stale one) and starts answering: each request goes to
+    /// `requests`, and `document` is the fallback.
+    pub fn start(
+        path: &Path,
+        document: SharedDocument,
+        requests: Sender<StatusRequest>,
+    ) -> Result<Self, ServiceError> {
         prepare_private_dir(path).map_err(|why| ServiceError::Socket {
             path: path.to_path_buf(),
             why,
@@ -74,17 +128,12 @@ impl StatusServer {
                 crate::os_error::plain_os_error(&e)
             ),
         })?;
-        listener
-            .set_nonblocking(true)
-            .map_err(|e| ServiceError::Socket {
-                path: path.to_path_buf(),
-                why: e.to_string(),
-            })?;
         let stop = Arc::new(AtomicBool::new(false));
         let flag = Arc::clone(&stop);
+        let desk = Desk { document, requests };
         let thread = std::thread::Builder::new()
             .name("redress-status".into())
-            .spawn(move || serve(listener, document, flag))
+            .spawn(move || serve(listener, desk, flag))
             .map_err(|e| ServiceError::Socket {
                 path: path.to_path_buf(),
                 why: format!(
@@ -108,8 +157,14 @@ impl StatusServer {
 impl Drop for StatusServer {
     fn drop(&mut self) {
         self.stop.store(true, Ordering::Release);
+        // The thread sleeps in `accept`: a connection of our own wakes it to see the flag. If
+        // the socket file was removed behind our back nothing can reach it; the thread is left
+        // to end with the process rather than waited for.
+        let woken = UnixStream::connect(&self.path).is_ok();
         if let Some(t) = self.thread.take() {
-            let _ = t.join();
+            if woken {
+                let _ = t.join();
+            }
         }
         let _ = std::fs::remove_file(&self.path);
     }
@@ -141,59 +196,73 @@ fn claim_path(path: &Path) -> Result<(), ServiceError> {
     }
 }
 
-fn serve(listener: UnixListener, document: SharedDocument, stop: Arc<AtomicBool>) {
+fn serve(listener: UnixListener, desk: Desk, stop: Arc<AtomicBool>) {
     let active = Arc::new(AtomicUsize::new(0));
-    let mut refused: Vec<(UnixStream, Instant)> = Vec::new();
-    while !stop.load(Ordering::Acquire) {
-        match listener.accept() {
+    let reaper = start_reaper();
+    loop {
+        let accepted = listener.accept();
+        if stop.load(Ordering::Acquire) {
+            return;
+        }
+        match accepted {
             Ok((stream, _)) => {
-                if let Some(busy) = dispatch(stream, &document, &active) {
-                    if refused.len() < MAX_REFUSED {
-                        refused.push((busy, Instant::now() + CLIENT_TIMEOUT));
+                if let Some(busy) = dispatch(stream, &desk, &active) {
+                    // With the reaper's queue full (or no reaper), it is closed at once.
+                    if let Some(reaper) = &reaper {
+                        let _ = reaper.try_send((busy, Instant::now() + CLIENT_TIMEOUT));
                     }
                 }
             }
-            Err(e) if e.kind() == ErrorKind::WouldBlock => {
-                std::thread::sleep(Duration::from_millis(20));
-            }
+            Err(e) if e.kind() == ErrorKind::Interrupted => {}
+            // Out of descriptors or memory for a moment: do not spin on the error.
             Err(_) => std::thread::sleep(Duration::from_millis(20)),
         }
+    }
+}
+
+/// A thread that keeps refused connections open until their deadline, so the refusal is read
+/// rather than reset, then closes them. It sleeps in `recv` while there are none.
+fn start_reaper() -> Option<Sender<(UnixStream, Instant)>> {
+    let (tx, rx) = crossbeam_channel::bounded::<(UnixStream, Instant)>(MAX_REFUSED);
+    std::thread::Builder::new()
+        .name("redress-status-reaper".into())
+        .stack_size(CLIENT_STACK_BYTES)
+        .spawn(move || reap(&rx))
+        .ok()?;
+    Some(tx)
+}
+
+fn reap(rx: &Receiver<(UnixStream, Instant)>) {
+    for (mut stream, until) in rx {
         let now = Instant::now();
-        refused.retain_mut(|(stream, until)| {
-            if now < *until {
-                return true;
+        if until > now {
+            std::thread::sleep(until - now);
+        }
+        // Closing with unread input would reset the connection and destroy the refusal before
+        // the client reads it: discard what it sent first (non-blocking, bounded).
+        let mut sink = [0u8; 4096];
+        for _ in 0..16 {
+            if !matches!(stream.read(&mut sink), Ok(n) if n > 0) {
+                break;
             }
-            // Closing with unread input would reset the connection and destroy the refusal
-            // before the client reads it: discard what it sent first (non-blocking, bounded).
-            let mut sink = [0u8; 4096];
-            for _ in 0..16 {
-                if !matches!(stream.read(&mut sink), Ok(n) if n > 0) {
-                    break;
-                }
-            }
-            false
-        });
+        }
     }
 }
 
 /// Answers `stream` on a thread of its own; when every slot is taken, tells the client so and
 /// gives the connection back to be closed a little later.
-fn dispatch(
-    stream: UnixStream,
-    document: &SharedDocument,
-    active: &Arc<AtomicUsize>,
-) -> Option<UnixStream> {
+fn dispatch(stream: UnixStream, desk: &Desk, active: &Arc<AtomicUsize>) -> Option<UnixStream> {
     if active.fetch_add(1, Ordering::AcqRel) >= MAX_CLIENTS {
         active.fetch_sub(1, Ordering::AcqRel);
         return refuse_busy(stream);
     }
-    let document = Arc::clone(document);
+    let desk = desk.clone();
     let slot = Arc::clone(active);
     let spawned = std::thread::Builder::new()
         .name("redress-status-client".into())
         .stack_size(CLIENT_STACK_BYTES)
         .spawn(move || {
-            answer(stream, &document);
+            answer(stream, &desk);
             slot.fetch_sub(1, Ordering::AcqRel);
         });
     if spawned.is_err() {
@@ -213,7 +282,22 @@ fn refuse_busy(mut stream: UnixStream) -> Option<UnixStream> {
     Some(stream)
 }
 
-fn answer(mut stream: UnixStream, document: &SharedDocument) {
+/// The control loop's fresh answer, or the last one it published if it cannot answer in time.
+fn fetch(desk: &Desk, kind: RequestKind) -> Option<Arc<String>> {
+    let (tx, rx) = crossbeam_channel::bounded(1);
+    let asked = desk
+        .requests
+        .try_send(StatusRequest { kind, reply: tx })
+        .is_ok();
+    if asked {
+        if let Ok(fresh) = rx.recv_timeout(FRESH_WAIT) {
+            return Some(fresh);
+        }
+    }
+    desk.document.lock().map(|d| d.get(kind)).ok()
+}
+
+fn answer(mut stream: UnixStream, desk: &Desk) {
     if stream.set_nonblocking(false).is_err()
         || stream.set_read_timeout(Some(CLIENT_TIMEOUT)).is_err()
         || stream.set_write_timeout(Some(CLIENT_TIMEOUT)).is_err()
@@ -222,18 +306,19 @@ fn answer(mut stream: UnixStream, document: &SharedDocument) {
     }
     // One deadline for the whole exchange, so a client trickling bytes cannot stretch it.
     let deadline = Instant::now() + 2 * CLIENT_TIMEOUT;
-    let reply = match read_request(&mut stream, deadline) {
-        Ok(request) if request == "status" => {
-            let doc = document.lock().map(|d| Arc::clone(&d)).ok();
-            match doc {
-                Some(d) => format!("{d}\n"),
-                None => error_reply("the status is not available right now; try again"),
-            }
-        }
-        Ok(request) => error_reply(&format!(
-            "unknown request {:?}; send the line `status`",
+    let kind = match read_request(&mut stream, deadline) {
+        Ok(request) if request == "status" => Ok(RequestKind::Status),
+        Ok(request) if request == "openmetrics" => Ok(RequestKind::OpenMetrics),
+        Ok(request) => Err(format!(
+            "unknown request {:?}; send the line `status` or `openmetrics`",
             request.chars().take(40).collect::<String>()
         )),
+        Err(why) => Err(why),
+    };
+    let reply = match kind.map(|k| (k, fetch(desk, k))) {
+        Ok((RequestKind::Status, Some(d))) => format!("{d}\n"),
+        Ok((RequestKind::OpenMetrics, Some(d))) => d.to_string(),
+        Ok((_, None)) => error_reply("the status is not available right now; try again"),
         Err(why) => error_reply(&why),
     };
     // A client that does not read gets cut off by the write timeout.

@@ -226,7 +226,7 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
     let _ = writeln!(
         out,
         "    {:>11} {:>11} {:>10} {:>10} {:>11} {:>4}  {:<9} {:>11}",
-        "re", "im", "|z|", "angle rad", "angle Hz", "mult", "where", "1 - |z|"
+        "re", "im", "|z|", "angle rad", "tone Hz", "mult", "where", "1 - |z|"
     );
     for r in by_radius.iter().take(ROOT_ROWS) {
         let _ = writeln!(
@@ -236,7 +236,8 @@ fn roots_block(out: &mut String, name: &str, roots: &[RootEntry]) {
             fixed(r.im, 6),
             fixed(r.radius, 6),
             fixed(r.angle_rad, 4),
-            fixed(r.angle_hz, 1),
+            // A pair's two members are one tone to a listener: the frequency, not its sign.
+            fixed(r.angle_hz.abs(), 1),
             r.multiplicity,
             r.placement.replace('_', " "),
             short_margin(r.margin)

@@ -174,10 +174,44 @@ pub fn u(doc: &Value, pointer: &str) -> u64 {
         .unwrap_or_else(|| panic!("{pointer} missing in {doc}"))
 }
 
-/// A fresh private temp directory.
-pub fn temp_dir(name: &str) -> PathBuf {
+/// A fresh private temp directory, removed when the test passes (a service test leaves recorded
+/// audio of hundreds of megabytes there; every run used to leave it behind). A failing test
+/// keeps it and prints where, so the recording can be looked at.
+pub struct ScratchDir(PathBuf);
+
+impl std::ops::Deref for ScratchDir {
+    type Target = Path;
+    fn deref(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl AsRef<Path> for ScratchDir {
+    fn as_ref(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl AsRef<std::ffi::OsStr> for ScratchDir {
+    fn as_ref(&self) -> &std::ffi::OsStr {
+        self.0.as_os_str()
+    }
+}
+
+impl Drop for ScratchDir {
+    fn drop(&mut self) {
+        if std::thread::panicking() {
+            eprintln!("kept for a look: {}", self.0.display());
+        } else {
+            let _ = std::fs::remove_dir_all(&self.0);
+        }
+    }
+}
+
+/// A fresh private temp directory named after the test (see [`ScratchDir`]).
+pub fn temp_dir(name: &str) -> ScratchDir {
     let dir = std::env::temp_dir().join(format!("redress-{name}-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("temp dir");
-    dir
+    ScratchDir(dir)
 }
