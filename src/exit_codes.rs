@@ -69,7 +69,8 @@ pub const DISTORT: &str = concat!(
 pub const COMPARE: &str = concat!(
     "Exit codes:\n",
     "  0    done\n",
-    "  1    a file could not be read, or the two files cannot be compared (channels, rate)\n",
+    "  1    a file could not be read, the two files cannot be compared (channels, rate), or\n",
+    "       --find-delay found no clear correlation peak\n",
     "  2    the command line is invalid\n"
 );
 

@@ -21,7 +21,7 @@ use redress::control::{
 use redress::io::{self, check_output_files, Existing, FileRunOptions, FileRunSummary};
 use redress::model::config::{load_link, parse_link};
 use redress::model::Link;
-use redress::pipeline::plan_link;
+use redress::pipeline::{add_trade_offs, plan_link};
 use redress::report::{link_report, render_json, render_summary, render_text};
 
 /// The demo's link when no config is named: a line with one echo, built into the binary so the
@@ -90,7 +90,8 @@ enum Command {
         #[arg(long)]
         replace: bool,
     },
-    /// Error of TEST against REF in dB: 10·log10(Σ(test - ref delayed)² / Σ ref delayed²).
+    /// Error of TEST against REF in dB: 10·log10(Σ(test - ref delayed)² / Σ ref delayed²),
+    /// and the level error per one-third-octave band (TEST against REF), worst band named.
     #[command(after_help = exit::COMPARE)]
     Compare {
         /// The reference WAV (e.g. the original programme).
@@ -99,8 +100,12 @@ enum Command {
         test: PathBuf,
         /// Delay the reference by this many frames first: the total delay `check` prints
         /// (the link's bulk delay plus any latency the inverse adds).
-        #[arg(long, default_value_t = 0)]
+        #[arg(long, default_value_t = 0, conflicts_with = "find_delay")]
         delay: usize,
+        /// Find the delay instead, by cross-correlation of the two files (their channels
+        /// summed): for when the delay is not known.
+        #[arg(long)]
+        find_delay: bool,
         /// Leave out this many frames at the start.
         #[arg(long, default_value_t = 0)]
         skip: usize,
@@ -292,8 +297,9 @@ fn main() -> ExitCode {
             reference,
             test,
             delay,
+            find_delay,
             skip,
-        } => compare(&reference, &test, delay, skip),
+        } => compare(&reference, &test, (!find_delay).then_some(delay), skip),
         Command::Demo { config, seconds } => demo(config.as_deref(), seconds),
         Command::Run {
             config,
@@ -408,7 +414,8 @@ fn check(config: &Path, json: bool, plot: Option<&Path>) -> u8 {
         Ok(link) => link,
         Err(code) => return code,
     };
-    let plan = plan_link(&link);
+    let mut plan = plan_link(&link);
+    add_trade_offs(&mut plan);
     let report = link_report(&plan, link.source.as_deref());
     let text = render_text(&report);
     if json {
@@ -508,16 +515,35 @@ fn finish_run(
     }
 }
 
-fn compare(reference: &Path, test: &Path, delay: usize, skip: usize) -> u8 {
+/// `delay`: the given delay, or `None` to find it by cross-correlation.
+fn compare(reference: &Path, test: &Path, delay: Option<usize>, skip: usize) -> u8 {
+    let delay = match delay {
+        Some(d) => d,
+        None => match redress::measure::delay_between_files(reference, test) {
+            Ok(found) => {
+                println!(
+                    "delay found by cross-correlation: {} frames (peak {:.1} dB above the \
+                     correlation's RMS)",
+                    found.peak_lag, found.prominence_db
+                );
+                found.peak_lag
+            }
+            Err(e) => {
+                eprintln!("error: {e}");
+                return exit::FAILED;
+            }
+        },
+    };
     match io::compare_files(test, reference, delay, skip) {
-        Ok(measure) => {
+        Ok(comparison) => {
             println!(
                 "error of {} against {} (delayed {delay}, first {skip} skipped): {}",
                 test.display(),
                 reference.display(),
-                io::format_db(measure.db)
+                io::format_db(comparison.measure.db)
             );
-            println!("frames compared: {}", measure.frames);
+            println!("frames compared: {}", comparison.measure.frames);
+            print!("{}", comparison.bands.render_text());
             exit::OK
         }
         Err(e) => {

@@ -7,7 +7,10 @@
 use serde::Serialize;
 
 use crate::analysis::{analyse, AnalysisError, ChannelAnalysis};
-use crate::design::{design_inverse, DesignError, InverseDesign};
+use crate::design::{
+    design_inverse, judged_band, trade_off, DesignError, DesignMethod, InverseDesign, TradeOff,
+    LATENCY_LADDER_MS,
+};
 use crate::model::{Link, Path, Structure, TransferFunction};
 use crate::numeric::poly::trim_trailing_zeros;
 use crate::realize::{
@@ -52,6 +55,9 @@ pub struct PathPlan {
     /// Every structure tried and refused, in the order tried (empty when the first one tried
     /// runs).
     pub refused: Vec<StructureRefusal>,
+    /// What latency buys, for a path with no exact inverse within the cap; `None` until
+    /// [`add_trade_offs`] fills it in (only `check` needs it), or when it does not apply.
+    pub trade_off: Option<Result<TradeOff, DesignError>>,
 }
 
 impl PathPlan {
@@ -139,6 +145,62 @@ fn plan_path(path: &Path, sample_rate: f64) -> PathPlan {
         realization,
         switched,
         refused,
+        trade_off: None,
+    }
+}
+
+/// True when the path has no exact stable causal inverse within its boost cap: a zero on or
+/// outside the circle, a minimum-phase design whose cap acted, or an exact inverse refused for
+/// its boost.
+pub fn needs_trade_off(plan: &PathPlan) -> bool {
+    let Ok(analysis) = &plan.analysis else {
+        return false;
+    };
+    if !analysis.channel_stable {
+        return false;
+    }
+    let capped = match &plan.design {
+        Some(Ok(d)) => d.method == DesignMethod::MinimumPhase && d.boost_cap.is_some(),
+        Some(Err(e)) => matches!(e, DesignError::OverBoostCap { .. }),
+        None => false,
+    };
+    !analysis.verdict.is_invertible() || capped
+}
+
+/// Fills in every path's latency–error table where [`needs_trade_off`]: the minimum-phase
+/// substitute and the least-squares FIR at each latency of [`LATENCY_LADDER_MS`], judged in
+/// the band of [`judged_band`].
+pub fn add_trade_offs(plan: &mut LinkPlan) {
+    let sample_rate = plan.sample_rate;
+    for p in plan.paths.iter_mut() {
+        if !needs_trade_off(p) {
+            continue;
+        }
+        let Ok(analysis) = &p.analysis else {
+            continue;
+        };
+        let configured = p.design.as_ref().and_then(|d| d.as_ref().ok());
+        // The latency-knee method made its choice from this very table: show that one.
+        if let Some(table) = configured
+            .and_then(|d| d.knee.as_ref())
+            .and_then(|k| k.table.clone().map(|t| (t, k.picked.clone())))
+            .map(|(table, picked)| TradeOff {
+                configured: picked,
+                ..table
+            })
+        {
+            p.trade_off = Some(Ok(table));
+            continue;
+        }
+        p.trade_off = Some(trade_off(
+            &p.path.channel,
+            analysis,
+            &p.path.inverse,
+            sample_rate,
+            judged_band(&p.path.inverse, sample_rate),
+            configured,
+            &LATENCY_LADDER_MS,
+        ));
     }
 }
 

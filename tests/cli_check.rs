@@ -36,7 +36,7 @@ fn every_example_config_reports_in_text_and_json_and_they_agree() {
             stderr(&text_run)
         );
         assert_eq!(json["schema"], "redress-link-report");
-        assert_eq!(json["schema_version"], 3);
+        assert_eq!(json["schema_version"], 4);
         assert_eq!(json["runnable"], Value::Bool(json_code == 0), "{name}");
         assert!(!paths(&json).is_empty(), "{name}: no paths");
         for path in paths(&json) {

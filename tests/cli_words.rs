@@ -161,7 +161,7 @@ fn each_thing_has_one_spelling_in_text_and_json() {
     let notch_json = check_json("configs/notch_feed.toml");
     assert_eq!(notch_json["paths"][0]["form"], "roots");
     assert_eq!(notch_json["paths"][0]["form_name"], "zeros and poles");
-    assert_eq!(notch_json["schema_version"], 3);
+    assert_eq!(notch_json["schema_version"], 4);
 
     // The paging link corrected over the whole axis keeps its recursive inverse, a direct form
     // (under the default band it is a band-limited FIR).

@@ -117,6 +117,8 @@ const CATALOGUE: &[Case] = &[
     case("inverse_delay_and_budget", ConflictingKeys, 13, Some("path[0].inverse.fir_latency_budget_ms"), "keep one"),
     case("inverse_bad_method", BadChoice, 11, Some("path[0].inverse.method"), "did you mean \"minimum_phase\"?"),
     case("inverse_unity_beyond_nyquist", OutOfRange, 11, Some("path[0].inverse.unity_at_hz"), "below half the sample rate"),
+    case("inverse_knee_budget_too_long", OutOfRange, 12, Some("path[0].inverse.latency_budget_ms"), "to 20 ms"),
+    case("inverse_knee_budget_without_knee", ConflictingKeys, 12, Some("path[0].inverse.latency_budget_ms"), "method is not \"latency_knee\""),
     case("inverse_fallback_not_bool", WrongType, 11, Some("path[0].inverse.structure_fallback"), "true or false"),
     // The live service's settings ([audio], [engine]).
     case("engine_bad_clip", BadChoice, 11, Some("engine.clip"), "did you mean \"soft_limit\"?"),

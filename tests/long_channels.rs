@@ -262,3 +262,52 @@ fn least_squares_fir_at_4096_taps() {
     let short = plan256.paths[0].design.as_ref().unwrap().as_ref().unwrap();
     assert!(fir.residual_error_db < short.fir.as_ref().unwrap().residual_error_db - 3.0);
 }
+
+// Source: common practice — at measured length (a mixed-phase response of 1024 taps, with
+// measurement noise 50 dB under its peak added to every tap), the trade-off table: every FIR
+// row respects the cap by the exact peak search of the design it would become (the
+// latency-knee method builds it), waiting buys correction over the substitute, and the knee's
+// pick is admissible and equals the brute-force search over its own table.
+#[test]
+fn trade_off_and_knee_at_1024_taps_with_noise() {
+    use redress::design::{admissible, choose_knee, judged_residual, KNEE_MARGIN_DB};
+    use redress::pipeline::add_trade_offs;
+    let mut b = mixed_phase(1024, 41);
+    let mut rng = Xorshift(7);
+    let noise = 10f64.powf(-50.0 / 20.0) * 12f64.sqrt();
+    b.iter_mut().for_each(|x| *x += noise * rng.next());
+    let mut p = plan(
+        &b,
+        "[path.inverse]\nmethod = \"latency_knee\"\nlatency_budget_ms = 20\n",
+    );
+    add_trade_offs(&mut p);
+    let path = &p.paths[0];
+    let design = path.design.as_ref().unwrap().as_ref().unwrap();
+    let table = path.trade_off.as_ref().unwrap().as_ref().unwrap();
+    assert_eq!(table.rows.len(), 9);
+    for row in &table.rows {
+        assert!(row.peak_boost_db <= CAP_DB + 1e-9, "{row:?}");
+        assert!(row.figures.residual_error_db.is_finite(), "{row:?}");
+    }
+    let substitute = table.rows[0].figures.residual_error_db;
+    let longest = table.rows.last().unwrap().figures.residual_error_db;
+    assert!(longest < substitute - 6.0, "{longest} vs {substitute}");
+    // The design actually built respects the cap by the exact peak search.
+    assert!(design.peak_boost_db <= CAP_DB + 1e-9);
+    let knee = design.knee.as_ref().unwrap();
+    let picked = knee.picked.as_ref().unwrap();
+    let budget = (0.020 * 48_000.0f64).round() as usize;
+    let k = choose_knee(&table.rows, budget, CAP_DB).expect("a candidate qualifies");
+    assert_eq!(&table.rows[k.picked], picked);
+    assert!(admissible(picked, budget, CAP_DB));
+    for row in table.rows.iter().filter(|r| admissible(r, budget, CAP_DB)) {
+        // Nothing admissible with less latency is within the margin of the best.
+        if row.latency_samples < picked.latency_samples {
+            assert!(
+                judged_residual(row) > judged_residual(&table.rows[k.best]) + KNEE_MARGIN_DB,
+                "{row:?}"
+            );
+        }
+    }
+    assert_eq!(design.added_latency_samples, picked.latency_samples);
+}

@@ -67,6 +67,17 @@ RULES = {
     ),
 }
 
+# The residual ||H g - d||^2 of a least-squares FIR, in dB, down to -200 dB (the script writes
+# lower values as -200): a small residual is a difference of nearly equal vectors, so its
+# relative error grows as the residual falls; at -104 dB (energy 4e-11, entries near 6e-6) an
+# entry's rounding of 1e-16 moves it by about 3e-11 relative.
+RULES["lstsq_residual_db"] = Rule(
+    relative=1e-9,
+    absolute=1e-6,
+    reason="least-squares residual in dB, floored at -200 dB by the script; the error of a "
+    "small residual is relative to the vectors it is the difference of; floor 1e-6 dB",
+)
+
 # Root lists ([re, im] pairs). A root of multiplicity m moves by about eps^(1/m) of the scale
 # when the coefficients move by eps (common practice: the perturbation of a multiple root);
 # roots are matched as a set, since a sort by real part can swap near-ties.
@@ -86,6 +97,8 @@ ROOT_REASON = (
 def rule_for(path_keys):
     """The rule for a value whose path (dictionary keys only) is `path_keys`."""
     for key in reversed(path_keys):
+        if key == "lstsq_residual_db":
+            return RULES["lstsq_residual_db"]
         if key.endswith("_db") or key == "db":
             return RULES["db"]
         if "group_delay" in key:

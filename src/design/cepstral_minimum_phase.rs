@@ -164,6 +164,7 @@ pub fn cepstral_inverse(
             on_circle_count: analysis.zero_count.on_circle,
         }),
         band: None,
+        knee: None,
     })
 }
 

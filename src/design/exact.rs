@@ -63,6 +63,7 @@ pub fn design_exact(
         unity_scale_db: 0.0,
         cepstral: None,
         band: None,
+        knee: None,
     })
 }
 

@@ -49,6 +49,66 @@ impl FirSolution {
     }
 }
 
+/// The normal equations of one channel, built once for solving at many lengths, delays and
+/// regularisations: the autocorrelation's first lags do not depend on the length asked for, and
+/// λ only scales lag 0.
+pub struct FirSystem<'a> {
+    h: &'a [f64],
+    /// Lags 0 … `longest` − 1 of h's autocorrelation, without regularisation.
+    lags: Vec<f64>,
+}
+
+impl<'a> FirSystem<'a> {
+    /// The system for up to `longest` taps. The autocorrelation is taken by FFT, since the
+    /// channel's response may run to tens of thousands of samples.
+    pub fn new(h: &'a [f64], longest: usize) -> Self {
+        FirSystem {
+            h,
+            lags: fft_autocorrelation(h, longest),
+        }
+    }
+
+    /// As [`solve_at_delay`], for `taps` up to the longest the system was built for. The
+    /// residual comes from the normal equations (‖Hg − d‖² = ‖d‖² − gᵀHᵀd − λ′‖g‖²), not from a
+    /// convolution.
+    pub fn solve(&self, taps: usize, delay: usize, regularization: f64) -> Option<FirSolution> {
+        let taps = taps.min(self.lags.len());
+        let mut r = self.lags[..taps].to_vec();
+        let energy = *r.first()?;
+        r[0] *= 1.0 + regularization;
+        let rhs = window(self.h, taps, delay);
+        let g = solve_symmetric_toeplitz(&r, &rhs)?;
+        let gd: f64 = g.iter().zip(&rhs).map(|(a, b)| a * b).sum();
+        let gg: f64 = g.iter().map(|x| x * x).sum();
+        let residual = 1.0 - gd - regularization * energy * gg;
+        Some(FirSolution {
+            taps: g,
+            delay,
+            regularization,
+            residual_error_db: 10.0 * residual.max(1e-300).log10(),
+        })
+    }
+}
+
+/// Lags 0 … `lags` − 1 of h's autocorrelation, as the inverse FFT of |H|² on a grid long enough
+/// that no lag wraps.
+fn fft_autocorrelation(h: &[f64], lags: usize) -> Vec<f64> {
+    use rustfft::{num_complex::Complex64, FftPlanner};
+    let size = (h.len() + lags).next_power_of_two().max(2);
+    let mut power: Vec<Complex64> = crate::numeric::homomorphic::spectrum_on_grid(h, size)
+        .iter()
+        .map(|c| Complex64::new(c.norm_sqr(), 0.0))
+        .collect();
+    FftPlanner::<f64>::new()
+        .plan_fft_inverse(size)
+        .process(&mut power);
+    power
+        .iter()
+        .take(lags)
+        .map(|c| c.re / size as f64)
+        .collect()
+}
+
 /// Tries every delay 0..=max_delay and keeps the one with the smallest residual.
 ///
 /// One Levinson solve per delay would cost O(D·L²) (a minute at 4096 taps and delays). The
@@ -215,6 +275,32 @@ mod tests {
             assert!((g - (-0.5f64).powi(n as i32)).abs() < 1e-6, "tap {n}: {g}");
         }
         assert!(s.residual_error_db < -50.0);
+    }
+
+    // Source: common practice — the system built once (autocorrelation by FFT, residual from
+    // the normal equations) gives the taps and residual of a fresh solve with a convolution.
+    #[test]
+    fn system_matches_a_fresh_solve() {
+        for h in channels() {
+            let system = FirSystem::new(&h, 96);
+            for (taps, delay, lambda) in [(16, 0, 0.0), (48, 20, 1e-4), (96, 70, 1e-2)] {
+                let fresh = solve_at_delay(&h, taps, delay, lambda).unwrap();
+                let built = system.solve(taps, delay, lambda).unwrap();
+                let scale = fresh.taps.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+                for (a, b) in fresh.taps.iter().zip(&built.taps) {
+                    assert!(
+                        (a - b).abs() <= 1e-8 * scale,
+                        "{taps} taps at {delay}: {a} vs {b}"
+                    );
+                }
+                assert!(
+                    (fresh.residual_error_db - built.residual_error_db).abs() < 1e-6,
+                    "{} vs {}",
+                    fresh.residual_error_db,
+                    built.residual_error_db
+                );
+            }
+        }
     }
 
     // Source: common practice — a zero outside the circle (0.5 + z⁻¹) needs delay to invert.

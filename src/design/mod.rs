@@ -9,15 +9,20 @@ mod band_figures;
 mod band_limit;
 mod band_weighted_fir;
 mod boost_cap;
+mod cascade_figures;
 mod cepstral_minimum_phase;
 mod correction_band;
 mod decay;
 mod exact;
+mod fir_under_cap;
+mod judged_band;
+mod knee;
 mod least_squares_fir;
 mod minimum_phase;
 mod noise_weight;
 mod notch_cap;
 mod substitute;
+mod trade_off;
 
 use serde::Serialize;
 
@@ -28,6 +33,7 @@ pub use band_figures::{band_figures, BandFigures, LevelAt};
 pub use band_limit::{BandOutcome, FIT_TOLERANCE_DB, MAX_BAND_LIMITED_TAPS, OUTSIDE_TOLERANCE_DB};
 pub use band_weighted_fir::{solve_weighted, SpectralWeights};
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
+pub use cascade_figures::{CascadeFigures, CascadeJudge, JUDGED_FRACTION};
 pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, ON_CIRCLE_PULL};
 pub use correction_band::{
     correction_band, default_band, BandSource, CorrectionBand, DEFAULT_NYQUIST_SHARE,
@@ -35,11 +41,19 @@ pub use correction_band::{
 };
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
-pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution};
+pub use judged_band::judged_band;
+pub use knee::{
+    admissible, choose_knee, judged_residual, KneeChoice, KneeIndices, KNEE_MARGIN_DB,
+    PRE_RINGING_LIMIT_DB, RESIDUAL_FLOOR_DB,
+};
+pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution, FirSystem};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
 pub use noise_weight::{snr_at, wiener_factor, NOISE_AWARE_BELOW_DB};
 pub use notch_cap::{cap_notches, NotchCap};
 pub use substitute::design_inverse;
+pub use trade_off::{
+    taps_for, trade_off, TradeOff, TradeOffRow, LARGEST_LATENCY_MS, LATENCY_LADDER_MS, TAPS_RULE,
+};
 
 /// How an inverse was obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -131,6 +145,8 @@ pub struct InverseDesign {
     /// The correction band, what it (and the measured noise) changed, and the inverse's gain
     /// inside and outside it and noise gain (set by `design_inverse`).
     pub band: Option<BandOutcome>,
+    /// What the latency-knee method chose and why, when it was the method.
+    pub knee: Option<KneeChoice>,
 }
 
 impl InverseDesign {

@@ -8,6 +8,8 @@ use super::band_weighted_fir::{solve_weighted, SpectralWeights};
 use super::boost_cap::cap_boost;
 use super::cepstral_minimum_phase::cepstral_inverse;
 use super::correction_band::correction_band;
+use super::fir_under_cap::{fir_under_cap, CappedFir};
+use super::knee::knee_inverse;
 use super::least_squares_fir::{search_delay, solve_at_delay};
 use super::minimum_phase::{all_pass_residual, reflect_outside_zeros};
 use super::noise_weight::snr_at;
@@ -16,7 +18,7 @@ use super::{
     InverseDesign,
 };
 use crate::analysis::{ChannelAnalysis, Placement};
-use crate::model::{FirDelay, InverseMethod, InversePolicy, TransferFunction};
+use crate::model::{FirDelay, FirSettings, InverseMethod, InversePolicy, TransferFunction};
 use crate::numeric::homomorphic::magnitude_on_grid;
 use crate::numeric::impulse::decayed_impulse_response;
 use crate::numeric::poly::eval_z_inverse;
@@ -50,7 +52,10 @@ pub fn design_inverse(
                 .and_then(|d| normalise(channel, d, policy, sample_rate))
                 .map(|d| limit_recursive_design(channel, d, policy, sample_rate))
         }
-        InverseMethod::LeastSquaresFir => fir_inverse(channel, analysis, policy, sample_rate),
+        InverseMethod::LeastSquaresFir => {
+            fir_inverse_with(channel, analysis, policy, &policy.fir, sample_rate)
+        }
+        InverseMethod::LatencyKnee => knee_inverse(channel, analysis, policy, sample_rate),
     }
 }
 
@@ -161,20 +166,23 @@ fn root_route(
         unity_scale_db: 0.0,
         cepstral: None,
         band: None,
+        knee: None,
     })
 }
 
-fn fir_inverse(
+/// The least-squares FIR inverse with `settings` (the policy's own, or the latency-knee
+/// method's), under the policy's boost cap.
+pub(super) fn fir_inverse_with(
     channel: &TransferFunction,
     analysis: &ChannelAnalysis,
     policy: &InversePolicy,
+    settings: &FirSettings,
     sample_rate: f64,
 ) -> Result<InverseDesign, DesignError> {
     if !analysis.channel_stable {
         return design_exact(channel, analysis, sample_rate);
     }
     let h = decayed_impulse_response(&channel.b, &channel.a, MAX_CHANNEL_RESPONSE);
-    let settings = &policy.fir;
     let taps = settings.taps;
     let band = correction_band(policy, sample_rate);
     let unweighted = |regularization: f64| match settings.delay {
@@ -199,36 +207,21 @@ fn fir_inverse(
         Some(weights) => solve_weighted(&h, taps, first.delay, regularization, weights),
         None => unweighted(regularization),
     };
-    // Raise the regularisation by decades until the taps respect the boost cap.
-    let mut regularization = settings.regularization;
-    let mut solution = match weighted {
-        Some(_) => solve(regularization).ok_or(DesignError::Numerical {
-            what: "the band-weighted least-squares system is singular; set a small \
-                   regularization (e.g. 1e-6)",
-        })?,
-        None => first.clone(),
-    };
-    let mut raised = false;
-    let mut peak = peak_magnitude(&solution.taps, &[1.0]);
-    while peak.level_db > policy.boost_cap_db && regularization < 1.0 {
-        regularization = if regularization <= 0.0 {
-            1e-8
-        } else {
-            regularization * 10.0
-        };
-        raised = true;
-        if let Some(s) = solve(regularization) {
-            solution = s;
-            peak = peak_magnitude(&solution.taps, &[1.0]);
-        }
-    }
-    let mut level_reduction_db = 0.0;
-    if peak.level_db > policy.boost_cap_db {
-        level_reduction_db = peak.level_db - policy.boost_cap_db;
-        let scale = 10f64.powf(-level_reduction_db / 20.0);
-        solution.taps.iter_mut().for_each(|t| *t *= scale);
-        peak.level_db = policy.boost_cap_db;
-    }
+    let capped = fir_under_cap(
+        solve,
+        |taps| peak_magnitude(taps, &[1.0]),
+        settings.regularization,
+        policy.boost_cap_db,
+    )
+    .ok_or(DesignError::Numerical {
+        what: "the least-squares system is singular; set a small regularization (e.g. 1e-6)",
+    })?;
+    let CappedFir {
+        solution,
+        peak,
+        raised,
+        level_reduction_db,
+    } = capped;
     let report = FirReport {
         taps,
         delay_samples: solution.delay,
@@ -269,6 +262,7 @@ fn fir_inverse(
         unity_scale_db: 0.0,
         cepstral: None,
         band: Some(band_outcome),
+        knee: None,
     })
 }
 

@@ -2,6 +2,7 @@
 //! a simulated link that applies a configured channel to audio, and the error measure used to
 //! judge an equalized signal against its original.
 
+pub mod band_levels;
 mod demo;
 mod error;
 pub mod error_metric;
@@ -17,7 +18,7 @@ pub use demo::{run_demo, DemoOutcome};
 pub use error::IoError;
 pub use error_metric::{error_db, error_db_per_channel, format_db, ErrorMeasure, MetricError};
 pub use offline::{
-    apply_file, compare_files, distort_file, equalizer_for, run_file, BlockProcessor,
+    apply_file, compare_files, distort_file, equalizer_for, run_file, BlockProcessor, Comparison,
     FileRunOptions, FileRunSummary, OfflineError, ProgressSteps,
 };
 pub use output_files::{check_output_files, check_output_folder, Existing};

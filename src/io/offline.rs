@@ -4,12 +4,14 @@
 use std::fmt;
 use std::path::Path;
 
+use super::band_levels::{band_level_errors, BandLevels};
 use super::error_metric::{error_db, ErrorMeasure, MetricError};
 use super::simulated_link::{SimulatedLink, SimulationError};
 use super::wav::{read_wav, WavBlockReader, WavBlockWriter, WavFormat};
 use super::IoError;
+use crate::design::judged_band;
 use crate::engine::{EngineError, Equalizer};
-use crate::model::Link;
+use crate::model::{InversePolicy, Link};
 use crate::pipeline::LinkPlan;
 
 /// Anything that turns interleaved blocks into interleaved blocks of the same size, carrying its
@@ -291,14 +293,23 @@ pub(crate) fn link_rate(link: &Link) -> u32 {
     link.sample_rate.round() as u32
 }
 
-/// Error of `test` against `reference` (see [`super::error_metric`]). Both files must have the
-/// same channel count and sample rate.
+/// What `compare` finds: the waveform error and the level error per one-third-octave band.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Comparison {
+    pub measure: ErrorMeasure,
+    /// Band levels in the default judged band (20 Hz up to 20 kHz or 0.9 of Nyquist).
+    pub bands: BandLevels,
+    pub sample_rate: u32,
+}
+
+/// Error of `test` against `reference` (see [`super::error_metric`]) and its band levels (see
+/// [`super::band_levels`]). Both files must have the same channel count and sample rate.
 pub fn compare_files(
     test: &Path,
     reference: &Path,
     delay: usize,
     skip: usize,
-) -> Result<ErrorMeasure, OfflineError> {
+) -> Result<Comparison, OfflineError> {
     let (reference_samples, reference_format) = read_wav(reference)?;
     let (test_samples, test_format) = read_wav(test)?;
     let differ = |unit, found: usize, expected: usize| {
@@ -324,13 +335,28 @@ pub fn compare_files(
             reference_format.sample_rate as usize,
         ));
     }
-    Ok(error_db(
+    let measure = error_db(
         &test_samples,
         &reference_samples,
         test_format.channels,
         delay,
         skip,
-    )?)
+    )?;
+    let rate = f64::from(test_format.sample_rate);
+    let bands = band_level_errors(
+        &test_samples,
+        &reference_samples,
+        test_format.channels,
+        delay,
+        skip,
+        rate,
+        judged_band(&InversePolicy::default(), rate),
+    )?;
+    Ok(Comparison {
+        measure,
+        bands,
+        sample_rate: test_format.sample_rate,
+    })
 }
 
 #[cfg(test)]

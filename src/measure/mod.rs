@@ -14,6 +14,7 @@ mod delay;
 mod equalized_check;
 mod error;
 mod fft;
+mod file_delay;
 mod fir_fit;
 mod fitted_band;
 mod fitted_config;
@@ -37,6 +38,7 @@ pub use band_snr::{
 pub use delay::{find_delay, DelayFound, MIN_PROMINENCE_DB};
 pub use equalized_check::{equalized_error, EqualizedError};
 pub use error::MeasureError;
+pub use file_delay::delay_between_files;
 pub use fir_fit::{fit_fir, FirFit, FirLength, DEFAULT_MOST_FIR_TAPS, MOST_FIR_TAPS};
 pub use fitted_band::{band_snr_pairs, inverse_table};
 pub use fitted_config::{fitted_config, MeasurementSources};

@@ -14,7 +14,8 @@ pub use error::{ConfigError, ConfigErrorKind};
 pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
 pub use policy::{
     BandEdges, BandSnr, FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,
-    DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, MAX_FIR_TAPS,
+    DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, DEFAULT_KNEE_BUDGET_SECONDS, MAX_FIR_TAPS,
+    MAX_KNEE_BUDGET_MS,
 };
 pub use runtime::{AudioSettings, ClipPolicy, EngineOptions, Fallback, RuntimeSettings};
 pub use transfer::TransferFunction;

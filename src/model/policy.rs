@@ -10,6 +10,8 @@ pub struct InversePolicy {
     pub unity_at_hz: Option<f64>,
     /// Settings of the least-squares FIR inverse (used only by that method).
     pub fir: FirSettings,
+    /// Most latency the latency-knee method may add (seconds; used only by that method).
+    pub knee_budget_seconds: f64,
     /// May realization switch to a safer structure when the requested one would be unstable or
     /// too close to the circle after coefficient rounding?
     pub structure_fallback: bool,
@@ -53,6 +55,10 @@ pub enum InverseMethod {
     MinimumPhase,
     /// A delayed least-squares FIR inverse: corrects magnitude and phase, costs latency.
     LeastSquaresFir,
+    /// The exact inverse when one exists within the cap; otherwise the knee of the
+    /// latency–error table within a latency budget: the least latency whose residual error is
+    /// within a margin of the best in the budget (see `design::knee`).
+    LatencyKnee,
 }
 
 /// Length, delay and regularisation of a least-squares FIR inverse.
@@ -86,6 +92,13 @@ pub const DEFAULT_FIR_TAPS: usize = 256;
 /// Most taps a least-squares FIR inverse may have.
 pub const MAX_FIR_TAPS: usize = 4096;
 
+/// Default latency budget of the latency-knee method: 10 ms, as the FIR delay search.
+pub const DEFAULT_KNEE_BUDGET_SECONDS: f64 = 0.010;
+
+/// Largest latency budget of the latency-knee method (ms): the top of the latency ladder the
+/// trade-off table tries.
+pub const MAX_KNEE_BUDGET_MS: f64 = 20.0;
+
 /// Default latency budget for the FIR delay search: 10 ms.
 pub const DEFAULT_FIR_BUDGET_SECONDS: f64 = 0.010;
 
@@ -108,6 +121,7 @@ impl Default for InversePolicy {
             boost_cap_db: DEFAULT_BOOST_CAP_DB,
             unity_at_hz: None,
             fir: FirSettings::default(),
+            knee_budget_seconds: DEFAULT_KNEE_BUDGET_SECONDS,
             structure_fallback: true,
             structure_configured: false,
             correction_band_hz: None,

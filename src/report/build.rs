@@ -10,11 +10,12 @@ use super::schema::{
     RealizationEntry, RootEntry, SparseEntry, StepDownEntry, StructureRefusalEntry,
     StructureSwitchEntry, VerdictEntry, SCHEMA_VERSION,
 };
+use super::trade_off::{knee_entry, method_key, trade_off_entry};
 use crate::analysis::{
     AnalysisError, ChannelAnalysis, PlacedRoot, Placement, Verdict, ZeroCount,
     LISTED_ROOTS_MAX_ORDER,
 };
-use crate::design::{DesignError, DesignMethod, InverseDesign};
+use crate::design::{DesignError, InverseDesign, TradeOff};
 use crate::model::{CoefficientPrecision, ModelForm, Path, Structure, TransferFunction};
 use crate::pipeline::{LinkPlan, StructureRefusal, StructureSwitch};
 use crate::realize::{dense_direct_form_taps, PoleEvidence, Realization, StructureCoefficients};
@@ -35,6 +36,7 @@ pub fn link_report(plan: &LinkPlan, source: Option<&std::path::Path>) -> LinkRep
                 &p.analysis,
                 p.design.as_ref(),
                 realization,
+                p.trade_off.as_ref(),
             )
         })
         .collect();
@@ -151,13 +153,14 @@ fn partitioned_entry(r: &Realization) -> Option<PartitionedEntry> {
 const RADII_QUOTED: usize = 4;
 
 /// Everything about one path. `realization` is the realized structure or the reason it failed,
-/// `None` when no realization was attempted.
+/// `None` when no realization was attempted; `trade_off` the latency–error table, when made.
 pub fn path_report(
     path: &Path,
     sample_rate: f64,
     analysis: &Result<ChannelAnalysis, AnalysisError>,
     design: Option<&Result<InverseDesign, DesignError>>,
     realization: Option<Result<RealizationEntry, String>>,
+    trade_off: Option<&Result<TradeOff, DesignError>>,
 ) -> PathReport {
     let ms = |samples: usize| samples as f64 * 1_000.0 / sample_rate;
     let (bulk_delay, zeros, poles, channel_stable, step_down, analysis_error) = match analysis {
@@ -209,6 +212,10 @@ pub fn path_report(
         runnable: realization.is_some(),
         realization,
         realize_error,
+        trade_off: trade_off.and_then(|t| t.as_ref().ok()).map(trade_off_entry),
+        trade_off_error: trade_off
+            .and_then(|t| t.as_ref().err())
+            .map(|e| e.to_string()),
     }
 }
 
@@ -459,12 +466,7 @@ fn unlisted_verdict(a: &ChannelAnalysis, blocking_zeros: Vec<BlockingZero>) -> V
 fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
     let ms = |samples: usize| samples as f64 * 1_000.0 / sample_rate;
     InverseEntry {
-        method: match d.method {
-            DesignMethod::Exact => "exact",
-            DesignMethod::MinimumPhase => "minimum_phase",
-            DesignMethod::LeastSquaresFir => "least_squares_fir",
-        }
-        .to_string(),
+        method: method_key(d.method).to_string(),
         method_name: d.method.name().to_string(),
         gives_up: d.gives_up(),
         coefficients: coefficients(&d.inverse),
@@ -517,6 +519,7 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
             level_reduction_db: fir.level_reduction_db,
             residual_error_db: fir.residual_error_db,
         }),
+        knee: d.knee.as_ref().map(knee_entry),
     }
 }
 
@@ -589,7 +592,7 @@ mod tests {
             .as_ref()
             .ok()
             .map(|a| design_exact(&p.channel, a, 48_000.0));
-        path_report(p, 48_000.0, &analysis, design.as_ref(), None)
+        path_report(p, 48_000.0, &analysis, design.as_ref(), None, None)
     }
 
     #[test]

@@ -10,6 +10,8 @@ pub mod pictures;
 pub mod schema;
 mod summary;
 mod text;
+mod trade_off;
+mod trade_off_text;
 
 pub use build::{form_key, link_report, path_report};
 pub use difference_equation::difference_equation;

@@ -12,11 +12,12 @@ use serde::Serialize;
 /// config's own key (`roots`, `echoes` where version 1 said `zeros_poles`, `echo_paths`), the
 /// direct form's coefficients are keyed `direct_form_2t` like the structure (version 1:
 /// `direct_form2_t`); added `form_name`, the inverse's `total_delay_samples`/`_ms` and the
-/// switch's `requested_by`.
+/// switch's `requested_by`. Version 3: an inverse's `method` may be chosen by the latency-knee
+/// method (its `knee` says how); added the path's `trade_off` table and `trade_off_error`.
 ///
-/// Version 3: the inverse's `correction_band` (the band it corrects, its largest boost inside
+/// Version 4: the inverse's `correction_band` (the band it corrects, its largest boost inside
 /// and outside, its white-noise gain and what the band and the measured noise changed).
-pub const SCHEMA_VERSION: u32 = 3;
+pub const SCHEMA_VERSION: u32 = 4;
 
 /// The whole link.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -76,6 +77,68 @@ pub struct PathReport {
     pub realize_error: Option<String>,
     /// True when this path has a realized inverse ready to run.
     pub runnable: bool,
+    /// What latency buys, for a path with no exact inverse within the cap (null otherwise).
+    pub trade_off: Option<TradeOffEntry>,
+    /// Why the table could not be made, when that failed.
+    pub trade_off_error: Option<String>,
+}
+
+/// The latency–error table: the minimum-phase substitute and the least-squares FIR at each
+/// added latency, each judged on the cascade channel∘inverse.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TradeOffEntry {
+    /// The range the band levels are judged in (Hz) and the bands' designator (3: thirds).
+    pub band_low_hz: f64,
+    pub band_high_hz: f64,
+    pub band_fraction: u32,
+    pub largest_latency_ms: f64,
+    /// How the FIR's taps were chosen, in words.
+    pub taps_rule: String,
+    pub boost_cap_db: f64,
+    /// The minimum-phase substitute first, then the FIR at rising latency.
+    pub rows: Vec<TradeOffRowEntry>,
+    /// The inverse the config asked for, judged the same way.
+    pub configured: Option<TradeOffRowEntry>,
+}
+
+/// One candidate inverse of the table.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TradeOffRowEntry {
+    /// "exact", "minimum_phase" or "least_squares_fir".
+    pub method: String,
+    pub method_name: String,
+    /// Latency the inverse adds beyond the link's bulk delay.
+    pub latency_samples: usize,
+    pub latency_ms: f64,
+    /// ‖h∗g − δ(n − D)‖² in dB, D the bulk delay plus the added latency.
+    pub residual_error_db: f64,
+    /// The one-third-octave band level of the cascade furthest from 0 dB (signed, dB), and that
+    /// band's nominal frequency (null when no band lies in the judged range).
+    pub worst_band_deviation_db: Option<f64>,
+    pub worst_band_hz: Option<f64>,
+    /// Energy of the cascade before its largest sample, dB against the whole (null: none).
+    pub pre_ringing_db: f64,
+    pub peak_boost_db: f64,
+    /// Taps of an FIR, order of a recursive inverse (the other is null).
+    pub taps: Option<usize>,
+    pub order: Option<usize>,
+    pub regularization: Option<f64>,
+    pub level_reduction_db: f64,
+}
+
+/// What the latency-knee method chose and why.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct KneeEntry {
+    pub budget_ms: f64,
+    pub margin_db: f64,
+    pub pre_ringing_limit_db: f64,
+    /// The row used (null for an exact inverse: nothing was traded).
+    pub picked: Option<TradeOffRowEntry>,
+    /// The best residual in the budget, when it is not the pick.
+    pub best: Option<TradeOffRowEntry>,
+    /// What the same rule picks with the pick left out.
+    pub runner_up: Option<TradeOffRowEntry>,
+    pub why: String,
 }
 
 /// Polynomial coefficients of z⁻¹: b for the numerator, a for the denominator.
@@ -194,6 +257,8 @@ pub struct InverseEntry {
     pub cepstral: Option<CepstralEntry>,
     /// The band the inverse corrects and what it does inside and outside it.
     pub correction_band: Option<CorrectionBandEntry>,
+    /// What the latency-knee method chose and why, when it was the method.
+    pub knee: Option<KneeEntry>,
 }
 
 /// The correction band and the inverse's figures against it (all gains in dB).

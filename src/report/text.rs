@@ -7,6 +7,7 @@ use super::schema::{
     CorrectionBandEntry, CountEntry, InverseEntry, LinkReport, PathReport, RealizationEntry,
     RootEntry,
 };
+use super::trade_off_text::{knee_lines, trade_off_block};
 
 /// Column at which values start, whatever the label's indent.
 const VALUE_COLUMN: usize = 20;
@@ -175,6 +176,9 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
     let _ = writeln!(out, "  verdict: {}", path.verdict.summary);
     if let Some(inverse) = &path.inverse {
         inverse_block(out, inverse);
+        if let Some(knee) = &inverse.knee {
+            knee_lines(out, knee);
+        }
     }
     if let Some(error) = &path.design_error {
         if path.verdict.invertible {
@@ -186,6 +190,12 @@ fn render_path(out: &mut String, path: &PathReport, number: usize, total: usize)
     }
     if let Some(error) = &path.realize_error {
         line(out, 2, "realization", &format!("refused: {error}"));
+    }
+    if let Some(table) = &path.trade_off {
+        trade_off_block(out, table);
+    }
+    if let Some(error) = &path.trade_off_error {
+        line(out, 2, "trade-off", &format!("not computed: {error}"));
     }
 }
 

@@ -3,7 +3,8 @@
 use super::band_keys::{read_band_snr, read_correction_band};
 use super::schema::{
     BAND_SNR_DB, BOOST_CAP_DB, CORRECTION_BAND_HZ, FIR_DELAY_SAMPLES, FIR_LATENCY_BUDGET_MS,
-    FIR_REGULARIZATION, FIR_TAPS, INVERSE_TABLE, METHOD, STRUCTURE_FALLBACK, UNITY_AT_HZ,
+    FIR_REGULARIZATION, FIR_TAPS, INVERSE_TABLE, LATENCY_BUDGET_MS, METHOD, STRUCTURE_FALLBACK,
+    UNITY_AT_HZ,
 };
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
@@ -28,6 +29,7 @@ pub(crate) fn read_inverse(
             ("exact", InverseMethod::Exact),
             ("minimum_phase", InverseMethod::MinimumPhase),
             ("least_squares_fir", InverseMethod::LeastSquaresFir),
+            ("latency_knee", InverseMethod::LatencyKnee),
         ])?;
     }
     if let Some(n) = table.get(BOOST_CAP_DB) {
@@ -69,7 +71,45 @@ pub(crate) fn read_inverse(
         policy.band_snr = read_band_snr(&n, sample_rate)?;
     }
     read_fir(&table, sample_rate, &mut policy)?;
+    read_knee_budget(&table, sample_rate, &mut policy)?;
     Ok(policy)
+}
+
+/// `latency_budget_ms`: only with method = "latency_knee", at least one sample.
+fn read_knee_budget(
+    table: &Table<'_>,
+    sample_rate: f64,
+    policy: &mut InversePolicy,
+) -> Result<(), ConfigError> {
+    let Some(n) = table.get(LATENCY_BUDGET_MS) else {
+        return Ok(());
+    };
+    if policy.method != InverseMethod::LatencyKnee {
+        return Err(n.fail(
+            ConfigErrorKind::ConflictingKeys,
+            format!(
+                "`{LATENCY_BUDGET_MS}` is the latency-knee method's budget, but method is not \
+                 \"latency_knee\""
+            ),
+            "set method = \"latency_knee\", or remove latency_budget_ms (a least-squares FIR \
+             takes fir_latency_budget_ms)",
+        ));
+    }
+    let ms = n.number()?;
+    let one_sample_ms = 1000.0 / sample_rate;
+    let largest = crate::model::MAX_KNEE_BUDGET_MS;
+    if !(ms >= one_sample_ms && ms <= largest) {
+        return Err(n.fail(
+            ConfigErrorKind::OutOfRange,
+            format!(
+                "a latency budget of {ms} ms is outside what the latency-knee method tries: from \
+                 one sample ({one_sample_ms:.4} ms at {sample_rate} Hz) to {largest} ms"
+            ),
+            "give a budget such as 5 (ms); 0 latency is the minimum-phase substitute",
+        ));
+    }
+    policy.knee_budget_seconds = ms / 1000.0;
+    Ok(())
 }
 
 fn read_fir(

@@ -262,3 +262,22 @@ fn format_version_and_whole_sample_rates() {
     assert!(outside.problem.contains("4000 to 384000"), "{outside}");
     assert!(!outside.problem.contains("..="), "{outside}");
 }
+
+#[test]
+fn latency_knee_with_its_budget() {
+    let link = parse(&format!(
+        "{MONO}[[path]]\nchannels = [0]\ndifference_equation = {{ b = [0.5, 1] }}\n\
+         [path.inverse]\nmethod = \"latency_knee\"\nlatency_budget_ms = 5\n"
+    ));
+    let policy = &link.paths[0].inverse;
+    assert_eq!(policy.method, crate::model::InverseMethod::LatencyKnee);
+    assert!((policy.knee_budget_seconds - 0.005).abs() < 1e-15);
+    let default = parse(&format!(
+        "{MONO}[[path]]\nchannels = [0]\ndifference_equation = {{ b = [0.5, 1] }}\n\
+         [path.inverse]\nmethod = \"latency_knee\"\n"
+    ));
+    assert_eq!(
+        default.paths[0].inverse.knee_budget_seconds,
+        crate::model::DEFAULT_KNEE_BUDGET_SECONDS
+    );
+}

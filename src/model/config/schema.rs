@@ -70,6 +70,7 @@ pub(crate) const FIR_LATENCY_BUDGET_MS: &str = "fir_latency_budget_ms";
 pub(crate) const FIR_REGULARIZATION: &str = "fir_regularization";
 pub(crate) const CORRECTION_BAND_HZ: &str = "correction_band_hz";
 pub(crate) const BAND_SNR_DB: &str = "band_snr_db";
+pub(crate) const LATENCY_BUDGET_MS: &str = "latency_budget_ms";
 pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
     name: "[path.inverse]",
     keys: &[
@@ -83,6 +84,7 @@ pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
         FIR_REGULARIZATION,
         CORRECTION_BAND_HZ,
         BAND_SNR_DB,
+        LATENCY_BUDGET_MS,
     ],
 };
 

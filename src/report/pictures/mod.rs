@@ -1,7 +1,8 @@
 //! Pictures of a link as SVG files: per path, the pole–zero diagrams (channel, exact inverse,
-//! and the substitute when one is used), the responses of channel, inverse and cascade, and the
-//! inverse's impulse response; per measured channel, what the measurement found. An
-//! `index.html` in the same folder shows them all with the text report.
+//! and the substitute when one is used), the responses of channel, inverse and cascade, the
+//! inverse's impulse response and, for a path with no exact inverse, the latency–error picture;
+//! per measured channel, what the measurement found. An `index.html` in the same folder shows
+//! them all with the text report.
 //!
 //! Presentation only: every figure comes from the plan or the measurement; the pictures only
 //! evaluate responses on a frequency grid to draw them.
@@ -12,6 +13,7 @@ mod measurement;
 mod pole_zero;
 mod responses;
 mod style;
+mod trade_off;
 
 use std::path::{Path, PathBuf};
 
@@ -21,6 +23,7 @@ pub use measurement::draw_measurement;
 pub use pole_zero::{draw_pole_zero, PoleZeroPanel};
 pub use responses::{draw_responses, Curve, ResponsePicture};
 pub use style::PictureError;
+pub use trade_off::draw_trade_off;
 
 use crate::design::DesignMethod;
 use crate::measure::MeasurementOutcome;
@@ -116,6 +119,15 @@ pub fn write_link_pictures(
                 &d.inverse.b,
                 &d.inverse.a,
                 fs,
+            )?;
+            files.push(file);
+        }
+        if let Some(Ok(table)) = &p.trade_off {
+            let file = dir.join(format!("path{n}_trade_off.svg"));
+            draw_trade_off(
+                &file,
+                &format!("path {n}: residual error against added latency"),
+                table,
             )?;
             files.push(file);
         }
