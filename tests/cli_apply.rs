@@ -129,7 +129,8 @@ fn hot_input_reports_its_clipped_samples() {
         "pad.toml",
         "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\n\
          label = \"6 dB pad at the stage box\"\nchannels = [0]\n\
-         difference_equation = { b = [0.5], a = [1.0] }\n",
+         difference_equation = { b = [0.5], a = [1.0] }\n\
+         [path.inverse]\ncorrection_band_hz = [0, 24000]\n",
     );
     let input = dir.path().join("hot.wav");
     let output = dir.path().join("out.wav");
@@ -159,8 +160,14 @@ fn hot_input_reports_its_clipped_samples() {
 #[test]
 fn distort_then_apply_gives_the_original_back_after_the_bulk_delay() {
     // The paging feed delays by 6 samples; the inverse equalizes the rest and leaves the delay.
-    let config = repo().join("configs/paging_delay.toml");
+    // Corrected over the whole axis (not the default band), the exact inverse undoes it all.
     let dir = tempfile::tempdir().unwrap();
+    let paging = std::fs::read_to_string(repo().join("configs/paging_delay.toml")).unwrap();
+    let config = write_file(
+        dir.path(),
+        "paging_whole.toml",
+        &format!("{paging}\n[path.inverse]\ncorrection_band_hz = [0, 8000]\n"),
+    );
     let original = dir.path().join("original.wav");
     let received = dir.path().join("received.wav");
     let equalized = dir.path().join("equalized.wav");
@@ -338,10 +345,17 @@ fn distorted_and_equalized(
 #[test]
 fn compare_finds_the_delay_and_judges_by_band() {
     // The paging feed's 6 samples are found by cross-correlation, and after them the equalized
-    // programme matches in waveform and in every band.
+    // programme matches in waveform and in every band (corrected over the whole axis: the
+    // default band would leave the top tenth below 8 kHz as the link shaped it).
     let dir = tempfile::tempdir().unwrap();
+    let paging = std::fs::read_to_string(repo().join("configs/paging_delay.toml")).unwrap();
+    let whole = write_file(
+        dir.path(),
+        "paging_whole.toml",
+        &format!("{paging}\n[path.inverse]\ncorrection_band_hz = [0, 8000]\n"),
+    );
     let (original, _, equalized) =
-        distorted_and_equalized(dir.path(), "configs/paging_delay.toml", 16_000.0, 2.0);
+        distorted_and_equalized(dir.path(), whole.to_str().unwrap(), 16_000.0, 2.0);
     let found = redress_paths(&[&"compare", &original, &equalized, &"--find-delay"]);
     assert_eq!(code(&found), 0, "{}", stderr(&found));
     let text = stdout(&found);

@@ -36,7 +36,7 @@ fn every_example_config_reports_in_text_and_json_and_they_agree() {
             stderr(&text_run)
         );
         assert_eq!(json["schema"], "redress-link-report");
-        assert_eq!(json["schema_version"], 3);
+        assert_eq!(json["schema_version"], 4);
         assert_eq!(json["runnable"], Value::Bool(json_code == 0), "{name}");
         assert!(!paths(&json).is_empty(), "{name}: no paths");
         for path in paths(&json) {
@@ -165,11 +165,14 @@ fn paging_delay_leaves_six_samples_and_inverts_the_rest() {
     }
     let inverse = &path["inverse"];
     assert_eq!(inverse["residual_delay_samples"], 6);
-    // G = (1 − 0.15 z⁻¹)/(0.7 + 0.25 z⁻¹ + 0.05 z⁻²), normalised to a₀ = 1.
-    assert_eq!(
-        inverse["difference_equation"],
-        "y[n] = 1.42857 x[n] - 0.214286 x[n-1] - 0.357143 y[n-1] - 0.0714286 y[n-2]"
-    );
+    // G = (1 − 0.15 z⁻¹)/(0.7 + 0.25 z⁻¹ + 0.05 z⁻²) boosts 7.2 dB at 8 kHz, above the default
+    // band's 7.2 kHz (90 % of half of 16 kHz): the inverse is redesigned to keep to the band.
+    let band = &inverse["correction_band"];
+    assert_eq!(band["source"], "default");
+    assert_eq!(band["limited"], true);
+    assert!((band["high_hz"].as_f64().unwrap() - 7200.0).abs() < 1e-9);
+    assert!((band["outside_before_db"].as_f64().unwrap() - 7.23).abs() < 0.01);
+    assert!(band["largest_boost_outside_db"].as_f64().unwrap() <= 0.1);
     let text = squeeze(&stdout(&redress(&["check", "configs/paging_delay.toml"])));
     assert!(text.contains("bulk delay 6 samples (0.375 ms)"), "{text}");
     assert!(text.contains("residual delay 6 samples"), "{text}");

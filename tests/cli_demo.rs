@@ -32,9 +32,15 @@ fn demo_on_another_config_and_length() {
     assert_eq!(code(&run), 0, "{}", stderr(&run));
     let text = stdout(&run);
     assert!(text.contains("demo: 1 s of generated programme"), "{text}");
-    // Poles and zeros of radius ≤ 0.55: f32 coefficient rounding barely moves them.
+    // The default band leaves the link's top tenth below 24 kHz and everything under 20 Hz as
+    // it was, so the broadband error keeps what the link does there (-25 dB measured; the
+    // exact inverse over the whole axis reached below -100 dB).
     let after = number_after(&text, "error after equalizing");
-    assert!(after < -100.0, "after {after}\n{text}");
+    let before = number_after(&text, "error before equalizing");
+    assert!(
+        after < -20.0 && after < before - 20.0,
+        "after {after}\n{text}"
+    );
 }
 
 #[test]

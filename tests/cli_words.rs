@@ -161,9 +161,20 @@ fn each_thing_has_one_spelling_in_text_and_json() {
     let notch_json = check_json("configs/notch_feed.toml");
     assert_eq!(notch_json["paths"][0]["form"], "roots");
     assert_eq!(notch_json["paths"][0]["form_name"], "zeros and poles");
-    assert_eq!(notch_json["schema_version"], 3);
+    assert_eq!(notch_json["schema_version"], 4);
 
-    let paging = check_json("configs/paging_delay.toml");
+    // The paging link corrected over the whole axis keeps its recursive inverse, a direct form
+    // (under the default band it is a band-limited FIR).
+    let whole =
+        std::env::temp_dir().join(format!("redress-paging-whole-{}.toml", std::process::id()));
+    let text = std::fs::read_to_string("configs/paging_delay.toml").unwrap();
+    std::fs::write(
+        &whole,
+        format!("{text}\n[path.inverse]\ncorrection_band_hz = [0, 8000]\n"),
+    )
+    .unwrap();
+    let paging = check_json(whole.to_str().unwrap());
+    std::fs::remove_file(&whole).unwrap();
     let realization = &paging["paths"][0]["realization"];
     assert_eq!(realization["structure"], "direct_form_2t");
     assert!(
@@ -191,7 +202,8 @@ fn each_thing_has_one_spelling_in_text_and_json() {
         "asked.toml",
         "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
          structure = \"lattice_ladder\"\n[path.echoes]\ndirect_gain = 0.92\n\
-         taps = [{ delay_samples = 37, gain = 0.28 }, { delay_samples = 120, gain = -0.15 }]\n",
+         taps = [{ delay_samples = 37, gain = 0.28 }, { delay_samples = 120, gain = -0.15 }]\n\
+         [path.inverse]\ncorrection_band_hz = [0, 24000]\n",
     );
     let asked = stdout(&redress_paths(&[&"check", &asked]));
     assert!(

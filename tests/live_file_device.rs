@@ -18,7 +18,7 @@ use std::time::{Duration, Instant};
 use redress::engine::{engine_pair, EngineSettings, Equalizer};
 use redress::io::live::{list_devices, start_duplex, DeviceFormat, DeviceRequest, LiveError};
 use redress::model::{
-    CoefficientPrecision, InversePolicy, Link, ModelForm, Path as LinkPath, Structure,
+    BandEdges, CoefficientPrecision, InversePolicy, Link, ModelForm, Path as LinkPath, Structure,
     TransferFunction, DEFAULT_CIRCLE_TOLERANCE,
 };
 use redress::pipeline::plan_link;
@@ -53,7 +53,15 @@ fn annex_line() -> Link {
         structure: Structure::Sections,
         precision: CoefficientPrecision::F32,
         circle_tolerance: DEFAULT_CIRCLE_TOLERANCE,
-        inverse: InversePolicy::default(),
+        // The whole axis: the short recursion this test compares frame by frame (see
+        // tests/service_support/mod.rs on why not the default band's long FIR).
+        inverse: InversePolicy {
+            correction_band_hz: Some(BandEdges {
+                low_hz: 0.0,
+                high_hz: f64::from(RATE) / 2.0,
+            }),
+            ..InversePolicy::default()
+        },
     };
     Link {
         source: None,

@@ -59,10 +59,20 @@ fn plan(f: &Fixture, b: &[f64], inverse: &str) -> LinkPlan {
         .map(|x| format!("{x:?}"))
         .collect::<Vec<_>>()
         .join(", ");
+    // The references solve the whole-axis problems, so the path is corrected from 0 Hz to half
+    // the sample rate (the default band is tests/correction_band.rs's subject).
+    let inverse = if inverse.is_empty() {
+        "[path.inverse]\n".to_string()
+    } else {
+        inverse.to_string()
+    };
     let text = format!(
         "[link]\nsample_rate_hz = {}\nchannel_count = 1\n\n[[path]]\nlabel = \"{}\"\n\
-         channels = [0]\ndifference_equation = {{ b = [{list}], a = [1.0] }}\n{inverse}",
-        f.sample_rate, f.name
+         channels = [0]\ndifference_equation = {{ b = [{list}], a = [1.0] }}\n{inverse}\
+         correction_band_hz = [0, {}]\n",
+        f.sample_rate,
+        f.name,
+        f.sample_rate / 2.0
     );
     plan_link(&parse_link(&text, None).unwrap())
 }

@@ -32,7 +32,9 @@ use redress::design::{
     all_pass_residual, cap_boost, design_inverse, reflect_outside_zeros, search_delay,
     solve_at_delay, DesignMethod, InverseDesign,
 };
-use redress::model::{FirDelay, FirSettings, InverseMethod, InversePolicy, TransferFunction};
+use redress::model::{
+    BandEdges, FirDelay, FirSettings, InverseMethod, InversePolicy, TransferFunction,
+};
 use redress::numeric::response::{group_delay, response_at};
 use redress::numeric::roots::find_roots;
 
@@ -776,6 +778,7 @@ fn fir_policy_with_a_latency_budget_finds_the_exhaustive_best_delay() {
                 },
                 regularization: 0.0,
             },
+            correction_band_hz: Some(whole_axis(fs)),
             ..InversePolicy::default()
         };
         let design = match analyse(&channel, 1e-9)
@@ -843,16 +846,24 @@ fn fir_policy_with_a_latency_budget_finds_the_exhaustive_best_delay() {
 // ---------------------------------------------------------------------------------------------
 // 4. The default policy, end to end.
 
+/// The references solve the whole-axis problems, so these designs correct from 0 Hz to half the
+/// sample rate (the default band is tests/correction_band.rs's subject).
+fn whole_axis(sample_rate: f64) -> BandEdges {
+    BandEdges {
+        low_hz: 0.0,
+        high_hz: sample_rate / 2.0,
+    }
+}
+
 fn default_design(m: &mut Mismatches, f: &ChannelFixture) -> Option<InverseDesign> {
     let analysis = m.analysis(f)?;
-    design_inverse(
-        &transfer(f),
-        &analysis,
-        &InversePolicy::default(),
-        f.sample_rate,
-    )
-    .map_err(|e| m.note(&f.channel, "design_inverse (default policy)", e.to_string()))
-    .ok()
+    let policy = InversePolicy {
+        correction_band_hz: Some(whole_axis(f.sample_rate)),
+        ..InversePolicy::default()
+    };
+    design_inverse(&transfer(f), &analysis, &policy, f.sample_rate)
+        .map_err(|e| m.note(&f.channel, "design_inverse (default policy)", e.to_string()))
+        .ok()
 }
 
 #[test]

@@ -64,7 +64,7 @@ fn table_against_numpy_and_scipy() {
     for f in fixtures() {
         let channel = TransferFunction::new(f.b.clone(), f.a.clone());
         let analysis = analyse(&channel, 1e-9).unwrap();
-        let policy = InversePolicy::default();
+        let policy = whole_axis(f.sample_rate);
         let table = trade_off(
             &channel,
             &analysis,
@@ -166,7 +166,7 @@ fn latency_knee_against_the_numpy_residuals() {
             let policy = InversePolicy {
                 method: InverseMethod::LatencyKnee,
                 knee_budget_seconds: budget_ms / 1000.0,
-                ..InversePolicy::default()
+                ..whole_axis(f.sample_rate)
             };
             let d = design_inverse(&channel, &analysis, &policy, f.sample_rate).unwrap();
             let knee = d.knee.as_ref().unwrap();
@@ -200,4 +200,16 @@ fn latency_knee_against_the_numpy_residuals() {
         }
     }
     bad.assert_none();
+}
+
+/// The references solve whole-axis problems, so the designs correct from 0 Hz to half the
+/// sample rate (the correction band is tests/correction_band.rs's subject).
+fn whole_axis(sample_rate: f64) -> InversePolicy {
+    InversePolicy {
+        correction_band_hz: Some(redress::model::BandEdges {
+            low_hz: 0.0,
+            high_hz: sample_rate / 2.0,
+        }),
+        ..InversePolicy::default()
+    }
 }

@@ -135,7 +135,15 @@ fn random_channel() -> impl Strategy<Value = RandomChannel> {
 // inside the unit circle; the cap is the policy's own promise (InversePolicy::boost_cap_db).
 #[test]
 fn default_policy_always_gives_a_stable_inverse_under_the_cap() {
-    let policy = InversePolicy::default();
+    // The recursive designs over the whole axis (the band-limited FIRs they become under the
+    // default band are tests/correction_band.rs's subject; they scale to the cap themselves).
+    let policy = InversePolicy {
+        correction_band_hz: Some(redress::model::BandEdges {
+            low_hz: 0.0,
+            high_hz: SAMPLE_RATE / 2.0,
+        }),
+        ..InversePolicy::default()
+    };
     let cap = policy.boost_cap_db;
     let (substitutes, capped, reflected) = (Cell::new(0), Cell::new(0), Cell::new(0));
     let result = runner(256, 7).run(&random_channel(), |c| {
@@ -249,7 +257,15 @@ fn one_path_link(channel: TransferFunction) -> Link {
             structure: Structure::DirectForm2T,
             precision: CoefficientPrecision::F32,
             circle_tolerance: 1e-9,
-            inverse: InversePolicy::default(),
+            // Corrected over the whole axis: the property is about rounding a recursive inverse
+            // (under the default band a clustered channel's inverse is a band-limited FIR).
+            inverse: InversePolicy {
+                correction_band_hz: Some(redress::model::BandEdges {
+                    low_hz: 0.0,
+                    high_hz: SAMPLE_RATE / 2.0,
+                }),
+                ..InversePolicy::default()
+            },
         }],
         linked_channels: Vec::new(),
         runtime: Default::default(),

@@ -3,8 +3,8 @@
 # the committed ones: tests/fixtures/reference (make_fixtures.py), tests/fixtures/substitutes
 # (make_substitute_fixtures.py), tests/fixtures/measure (make_measure_fixtures.py),
 # tests/fixtures/long_channels (make_long_channel_fixtures.py, which also needs pyroomacoustics),
-# tests/fixtures/trade_off (make_trade_off_fixtures.py) and tests/fixtures/drift
-# (make_drift_fixtures.py).
+# tests/fixtures/noise_aware (make_noise_aware_fixtures.py), tests/fixtures/trade_off
+# (make_trade_off_fixtures.py) and tests/fixtures/drift (make_drift_fixtures.py).
 # Structure, keys, lengths, strings, booleans and integers must match exactly, floating-point
 # values within the tolerances stated in fixture_compare.py (last bits differ between processors
 # and library builds). Exits non-zero when any set differs; every set is always checked.
@@ -35,6 +35,7 @@ status=0
 "$venv/bin/python" "$here/make_substitute_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_measure_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_long_channel_fixtures.py" --check || status=1
+"$venv/bin/python" "$here/make_noise_aware_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_trade_off_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_drift_fixtures.py" --check || status=1
 if [ "${REDRESS_FIXTURES_OTHER_PATH:-0}" = 1 ] && [ "$(uname -m)" = x86_64 ]; then

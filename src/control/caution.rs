@@ -49,10 +49,11 @@ mod tests {
 
     #[test]
     fn names_every_path_with_its_peak_boost() {
-        // 1/(1 + 0.5 z⁻¹) peaks at ω = π with gain 1/0.5 = 2, 6.02 dB (common practice).
+        // 1/(1 + 0.5 z⁻¹) peaks at ω = π with gain 1/0.5 = 2, 6.02 dB (common practice); the
+        // band is the whole axis, so the peak stays where it is.
         let text = "[link]\nsample_rate_hz = 48000\nchannel_count = 2\n\n[[path]]\nlabel = \
                     \"left feed\"\nchannels = [0]\ndifference_equation = { b = [1.0, 0.5], a = \
-                    [1.0] }\n\n[[path]]\nlabel = \"right feed\"\nchannels = [1]\n\
+                    [1.0] }\n[path.inverse]\ncorrection_band_hz = [0, 24000]\n\n[[path]]\nlabel = \"right feed\"\nchannels = [1]\n\
                     difference_equation = { b = [1.0], a = [1.0] }\n";
         let plan = plan_link(&parse_link(text, None).unwrap());
         let line = start_up_caution(&plan);

@@ -163,6 +163,7 @@ pub fn cepstral_inverse(
             reflected_count,
             on_circle_count: analysis.zero_count.on_circle,
         }),
+        band: None,
         knee: None,
     })
 }

@@ -62,6 +62,7 @@ pub fn design_exact(
         fir: None,
         unity_scale_db: 0.0,
         cepstral: None,
+        band: None,
         knee: None,
     })
 }

@@ -1,25 +1,23 @@
-//! The band a path's per-band figures are judged in.
-//!
-//! Placeholder: until a path can name the band it is corrected in (the correction band of the
-//! band-limited designs), every path is judged from 20 Hz up to the lower of 20 kHz and 0.9 of
-//! the Nyquist frequency (the usual audio band, kept clear of the top where converters' own
-//! filters roll off). This is the one place that choice is made, so the correction band replaces
-//! it here.
+//! The band a path's per-band figures are judged in: its correction band (what the inverse is
+//! asked to correct), kept inside the audio band from 20 Hz to 20 kHz, since a fractional-octave
+//! figure below or above it (or from 0 Hz, where a whole-axis band starts) judges nothing a
+//! listener hears. Under the default correction band this is 20 Hz up to the lower of 20 kHz and
+//! 0.9 of the Nyquist frequency.
 
+use super::correction_band;
 use crate::model::InversePolicy;
 
 /// Lowest frequency judged (Hz): the bottom of the audio band (common practice).
 pub const JUDGED_LOW_HZ: f64 = 20.0;
-/// Highest frequency judged (Hz) when the Nyquist frequency allows (common practice).
+/// Highest frequency judged (Hz) when the correction band reaches it (common practice).
 pub const JUDGED_HIGH_HZ: f64 = 20_000.0;
-/// Share of the Nyquist frequency judged at most.
-pub const JUDGED_NYQUIST_SHARE: f64 = 0.9;
 
 /// (low, high) in Hz for a path with this policy at this sample rate.
-pub fn judged_band(_policy: &InversePolicy, sample_rate: f64) -> (f64, f64) {
+pub fn judged_band(policy: &InversePolicy, sample_rate: f64) -> (f64, f64) {
+    let band = correction_band(policy, sample_rate);
     (
-        JUDGED_LOW_HZ,
-        JUDGED_HIGH_HZ.min(JUDGED_NYQUIST_SHARE * sample_rate / 2.0),
+        band.low_hz.max(JUDGED_LOW_HZ),
+        band.high_hz.min(JUDGED_HIGH_HZ),
     )
 }
 
@@ -34,5 +32,21 @@ mod tests {
         let (low, high) = judged_band(&p, 16_000.0);
         assert_eq!(low, 20.0);
         assert!((high - 7_200.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_configured_band_is_judged_inside_the_audio_band() {
+        let with_band = |low_hz, high_hz| InversePolicy {
+            correction_band_hz: Some(crate::model::BandEdges { low_hz, high_hz }),
+            ..InversePolicy::default()
+        };
+        assert_eq!(
+            judged_band(&with_band(0.0, 24_000.0), 48_000.0),
+            (20.0, 20_000.0)
+        );
+        assert_eq!(
+            judged_band(&with_band(100.0, 8_000.0), 48_000.0),
+            (100.0, 8_000.0)
+        );
     }
 }

@@ -98,10 +98,17 @@ proptest! {
     }
 }
 
+/// Over the whole axis: the table's rows are whole-axis designs judged in their own band, so
+/// the knee's design is compared with them unlimited (joining the table to the correction band
+/// is still to come).
 fn policy(budget_ms: f64) -> InversePolicy {
     InversePolicy {
         method: InverseMethod::LatencyKnee,
         knee_budget_seconds: budget_ms / 1000.0,
+        correction_band_hz: Some(crate::model::BandEdges {
+            low_hz: 0.0,
+            high_hz: 24_000.0,
+        }),
         ..InversePolicy::default()
     }
 }

@@ -33,13 +33,20 @@ pub fn solve_at_delay(
     let r = autocorrelation(h, taps, regularization);
     let rhs = window(h, taps, delay);
     let g = solve_symmetric_toeplitz(&r, &rhs)?;
-    let residual = residual_energy(h, &g, delay);
-    Some(FirSolution {
-        taps: g,
-        delay,
-        regularization,
-        residual_error_db: 10.0 * residual.max(1e-300).log10(),
-    })
+    Some(FirSolution::measured(h, g, delay, regularization))
+}
+
+impl FirSolution {
+    /// Taps `g` at delay D with their residual ‖h∗g − δ(n−D)‖² measured by convolution.
+    pub fn measured(h: &[f64], g: Vec<f64>, delay: usize, regularization: f64) -> Self {
+        let residual = residual_energy(h, &g, delay);
+        FirSolution {
+            taps: g,
+            delay,
+            regularization,
+            residual_error_db: 10.0 * residual.max(1e-300).log10(),
+        }
+    }
 }
 
 /// The normal equations of one channel, built once for solving at many lengths, delays and

@@ -5,9 +5,13 @@
 //! advance time, so the delay is reported, not undone. When no exact inverse exists, or it would
 //! boost more than the cap, the policy picks a substitute and the design says what it costs.
 
+mod band_figures;
+mod band_limit;
+mod band_weighted_fir;
 mod boost_cap;
 mod cascade_figures;
 mod cepstral_minimum_phase;
+mod correction_band;
 mod decay;
 mod exact;
 mod fir_under_cap;
@@ -15,6 +19,7 @@ mod judged_band;
 mod knee;
 mod least_squares_fir;
 mod minimum_phase;
+mod noise_weight;
 mod notch_cap;
 mod substitute;
 mod trade_off;
@@ -24,9 +29,16 @@ use serde::Serialize;
 use crate::analysis::PlacedRoot;
 use crate::model::TransferFunction;
 
+pub use band_figures::{band_figures, BandFigures, LevelAt};
+pub use band_limit::{BandOutcome, FIT_TOLERANCE_DB, MAX_BAND_LIMITED_TAPS, OUTSIDE_TOLERANCE_DB};
+pub use band_weighted_fir::{solve_weighted, SpectralWeights};
 pub use boost_cap::{cap_boost, Capped, MovedZero, RADIUS_FLOOR};
 pub use cascade_figures::{CascadeFigures, CascadeJudge, JUDGED_FRACTION};
 pub use cepstral_minimum_phase::{cepstral_inverse, CepstralReport, ON_CIRCLE_PULL};
+pub use correction_band::{
+    correction_band, default_band, BandSource, CorrectionBand, DEFAULT_NYQUIST_SHARE,
+    ROLL_OFF_OCTAVES,
+};
 pub use decay::decay_60db_samples;
 pub use exact::design_exact;
 pub use judged_band::judged_band;
@@ -36,6 +48,7 @@ pub use knee::{
 };
 pub use least_squares_fir::{search_delay, solve_at_delay, FirSolution, FirSystem};
 pub use minimum_phase::{all_pass_residual, reflect_outside_zeros, AllPassResidual};
+pub use noise_weight::{snr_at, wiener_factor, NOISE_AWARE_BELOW_DB};
 pub use notch_cap::{cap_notches, NotchCap};
 pub use substitute::design_inverse;
 pub use trade_off::{
@@ -129,6 +142,9 @@ pub struct InverseDesign {
     /// How the homomorphic route went, when the minimum-phase substitute was built without
     /// roots (long channels).
     pub cepstral: Option<CepstralReport>,
+    /// The correction band, what it (and the measured noise) changed, and the inverse's gain
+    /// inside and outside it and noise gain (set by `design_inverse`).
+    pub band: Option<BandOutcome>,
     /// What the latency-knee method chose and why, when it was the method.
     pub knee: Option<KneeChoice>,
 }
@@ -184,6 +200,26 @@ impl InverseDesign {
                     fir.level_reduction_db
                 ));
             }
+        }
+        if let Some(band) = self.band.as_ref().filter(|b| b.limited) {
+            let recursive = self.fir.is_none();
+            parts.push(format!(
+                "the link outside {:.1}-{:.1} Hz: the inverse rolls to unity gain at the band's \
+                 edges{}{}",
+                band.band.low_hz,
+                band.band.high_hz,
+                if recursive {
+                    " (run as a minimum-phase FIR, whose phase in the band follows the \
+                     band-limited magnitude)"
+                } else {
+                    ""
+                },
+                if band.noise_aware {
+                    "; gain held back where the measured SNR is low"
+                } else {
+                    ""
+                }
+            ));
         }
         if parts.is_empty() {
             "nothing: magnitude and phase fully corrected".to_string()

@@ -2,12 +2,17 @@
 
 use num_complex::Complex64;
 
+use super::band_figures::band_figures;
+use super::band_limit::{limit_recursive_design, lowest_snr_in, needs_limiting, BandOutcome};
+use super::band_weighted_fir::{solve_weighted, SpectralWeights};
 use super::boost_cap::cap_boost;
 use super::cepstral_minimum_phase::cepstral_inverse;
+use super::correction_band::correction_band;
 use super::fir_under_cap::{fir_under_cap, CappedFir};
 use super::knee::knee_inverse;
 use super::least_squares_fir::{search_delay, solve_at_delay};
 use super::minimum_phase::{all_pass_residual, reflect_outside_zeros};
+use super::noise_weight::snr_at;
 use super::{
     decay_60db_samples, design_exact, BoostCapReport, DesignError, DesignMethod, FirReport,
     InverseDesign,
@@ -40,10 +45,12 @@ pub fn design_inverse(
                 });
             }
             normalise(channel, design, policy, sample_rate)
+                .map(|d| limit_recursive_design(channel, d, policy, sample_rate))
         }
         InverseMethod::MinimumPhase => {
             minimum_phase_inverse(channel, analysis, policy, sample_rate)
                 .and_then(|d| normalise(channel, d, policy, sample_rate))
+                .map(|d| limit_recursive_design(channel, d, policy, sample_rate))
         }
         InverseMethod::LeastSquaresFir => {
             fir_inverse_with(channel, analysis, policy, &policy.fir, sample_rate)
@@ -158,6 +165,7 @@ fn root_route(
         fir: None,
         unity_scale_db: 0.0,
         cepstral: None,
+        band: None,
         knee: None,
     })
 }
@@ -176,13 +184,28 @@ pub(super) fn fir_inverse_with(
     }
     let h = decayed_impulse_response(&channel.b, &channel.a, MAX_CHANNEL_RESPONSE);
     let taps = settings.taps;
-    let solve = |regularization: f64| match settings.delay {
+    let band = correction_band(policy, sample_rate);
+    let unweighted = |regularization: f64| match settings.delay {
         FirDelay::Fixed { samples } => solve_at_delay(&h, taps, samples, regularization),
         FirDelay::Search { budget_seconds } => {
             let budget = (budget_seconds * sample_rate).floor() as usize;
             let max_delay = budget.min(taps + h.len() - 2);
             search_delay(&h, taps, max_delay, regularization)
         }
+    };
+    // The plain design first: when it keeps to its band (and the noise asks nothing), it stands.
+    let first = unweighted(settings.regularization).ok_or(DesignError::Numerical {
+        what: "the least-squares system is singular; set a small regularization (e.g. 1e-6)",
+    })?;
+    let first_figures = band_figures(&first.taps, &[1.0], &band);
+    let weighted = needs_limiting(&first_figures, &band, &policy.band_snr).then(|| {
+        let size = super::band_figures::grid_size(taps + h.len(), &band);
+        SpectralWeights::new(size, &band, |hz| snr_at(&policy.band_snr, hz))
+    });
+    // The weighted design keeps the plain design's delay (searched without weights).
+    let solve = |regularization: f64| match &weighted {
+        Some(weights) => solve_weighted(&h, taps, first.delay, regularization, weights),
+        None => unweighted(regularization),
     };
     let capped = fir_under_cap(
         solve,
@@ -209,6 +232,16 @@ pub(super) fn fir_inverse_with(
         level_reduction_db,
         residual_error_db: solution.residual_error_db,
     };
+    let figures = band_figures(&solution.taps, &[1.0], &band);
+    let band_outcome = BandOutcome {
+        band,
+        limited: weighted.is_some(),
+        noise_aware: weighted.is_some() && !policy.band_snr.is_empty(),
+        lowest_snr_db: lowest_snr_in(&band, &policy.band_snr),
+        outside_before: first_figures.outside,
+        fit_error_db: 0.0,
+        figures,
+    };
     let inverse = TransferFunction::new(solution.taps, vec![1.0]);
     // The cascade is ≈ δ(n − D): the channel's own bulk delay is part of D, the rest is added.
     let channel_delay = analysis.bulk_delay.min(solution.delay);
@@ -228,6 +261,7 @@ pub(super) fn fir_inverse_with(
         fir: Some(report),
         unity_scale_db: 0.0,
         cepstral: None,
+        band: Some(band_outcome),
         knee: None,
     })
 }
@@ -294,9 +328,15 @@ mod tests {
     use crate::numeric::poly::multiply;
     use crate::numeric::response::magnitude_db;
 
+    /// The policy corrects from 0 Hz to half the sample rate: these tests are about the designs
+    /// themselves (`tests/correction_band.rs` is about the band).
     fn policy(method: InverseMethod) -> InversePolicy {
         InversePolicy {
             method,
+            correction_band_hz: Some(crate::model::BandEdges {
+                low_hz: 0.0,
+                high_hz: 24_000.0,
+            }),
             ..InversePolicy::default()
         }
     }

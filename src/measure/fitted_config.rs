@@ -107,6 +107,7 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
             number_list(&b),
             number_list(&a)
         );
+        t.push_str(&super::fitted_band::inverse_table(&id.channels[c], fs));
     }
     t
 }

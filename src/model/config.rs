@@ -61,6 +61,7 @@
 // only add an allocation to the rare path and a layer to every caller's match.
 #![allow(clippy::result_large_err)]
 
+mod band_keys;
 mod channel_owners;
 mod complex_value;
 mod conjugates;

@@ -13,7 +13,7 @@ mod transfer;
 pub use error::{ConfigError, ConfigErrorKind};
 pub use link::{CoefficientPrecision, Link, ModelForm, Path, Structure};
 pub use policy::{
-    FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,
+    BandEdges, BandSnr, FirDelay, FirSettings, InverseMethod, InversePolicy, DEFAULT_BOOST_CAP_DB,
     DEFAULT_FIR_BUDGET_SECONDS, DEFAULT_FIR_TAPS, DEFAULT_KNEE_BUDGET_SECONDS, MAX_FIR_TAPS,
     MAX_KNEE_BUDGET_MS,
 };

@@ -19,6 +19,27 @@ pub struct InversePolicy {
     /// default for the channel's order, which the pipeline may replace without comment (an FIR
     /// inverse then simply runs as a direct form) and which reports call "the default".
     pub structure_configured: bool,
+    /// The band to correct, as the config gave it (`correction_band_hz`); `None` takes the
+    /// default band (`design::correction_band` says which and why).
+    pub correction_band_hz: Option<BandEdges>,
+    /// Measured SNR per fractional-octave band (`band_snr_db`, written by `identify`): the
+    /// inverse gives no more gain where the measurement is no better than its noise. Empty when
+    /// the config has none.
+    pub band_snr: Vec<BandSnr>,
+}
+
+/// Edges of a frequency band, in Hz (0 ≤ low < high ≤ half the sample rate).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct BandEdges {
+    pub low_hz: f64,
+    pub high_hz: f64,
+}
+
+/// The SNR measured in one band, centred at `hz`.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct BandSnr {
+    pub hz: f64,
+    pub snr_db: f64,
 }
 
 /// Which inverse to build.
@@ -103,6 +124,8 @@ impl Default for InversePolicy {
             knee_budget_seconds: DEFAULT_KNEE_BUDGET_SECONDS,
             structure_fallback: true,
             structure_configured: false,
+            correction_band_hz: None,
+            band_snr: Vec::new(),
         }
     }
 }

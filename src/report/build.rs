@@ -5,10 +5,10 @@ use std::f64::consts::TAU;
 use super::difference_equation::difference_equation;
 use super::numbers::significant;
 use super::schema::{
-    AllPassEntry, BlockingZero, BoostCapEntry, CepstralEntry, Coefficients, CountEntry, FirEntry,
-    InverseEntry, LinkReport, MovedZeroEntry, PartitionedEntry, PathReport, RealizationEntry,
-    RootEntry, SparseEntry, StepDownEntry, StructureRefusalEntry, StructureSwitchEntry,
-    VerdictEntry, SCHEMA_VERSION,
+    AllPassEntry, BlockingZero, BoostCapEntry, CepstralEntry, Coefficients, CorrectionBandEntry,
+    CountEntry, FirEntry, InverseEntry, LinkReport, MovedZeroEntry, PartitionedEntry, PathReport,
+    RealizationEntry, RootEntry, SparseEntry, StepDownEntry, StructureRefusalEntry,
+    StructureSwitchEntry, VerdictEntry, SCHEMA_VERSION,
 };
 use super::trade_off::{knee_entry, method_key, trade_off_entry};
 use crate::analysis::{
@@ -509,6 +509,7 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
             reflected_count: c.reflected_count,
             contraction: c.contraction,
         }),
+        correction_band: d.band.as_ref().map(correction_band_entry),
         fir: d.fir.as_ref().map(|fir| FirEntry {
             taps: fir.taps,
             delay_samples: fir.delay_samples,
@@ -519,6 +520,33 @@ fn inverse(d: &InverseDesign, sample_rate: f64) -> InverseEntry {
             residual_error_db: fir.residual_error_db,
         }),
         knee: d.knee.as_ref().map(knee_entry),
+    }
+}
+
+fn correction_band_entry(b: &crate::design::BandOutcome) -> CorrectionBandEntry {
+    let f = &b.figures;
+    CorrectionBandEntry {
+        low_hz: b.band.low_hz,
+        high_hz: b.band.high_hz,
+        source: match b.band.source {
+            crate::design::BandSource::Configured => "configured",
+            crate::design::BandSource::Default => "default",
+        }
+        .to_string(),
+        limited: b.limited,
+        noise_aware: b.noise_aware,
+        lowest_snr_db: b.lowest_snr_db,
+        largest_boost_inside_db: f.inside.db,
+        largest_boost_inside_hz: f.inside.hz,
+        largest_boost_outside_db: f.outside.map(|o| o.db),
+        largest_boost_outside_hz: f.outside.map(|o| o.hz),
+        outside_before_db: b.outside_before.map(|o| o.db),
+        outside_before_hz: b.outside_before.map(|o| o.hz),
+        noise_gain_db: f.noise_gain_db,
+        noise_mostly_from_hz: f.noise_mostly_from_hz,
+        noise_share: f.noise_share,
+        noise_share_in_band: f.noise_share_in_band,
+        fit_error_db: b.fit_error_db,
     }
 }
 

@@ -14,7 +14,10 @@ use serde::Serialize;
 /// `direct_form2_t`); added `form_name`, the inverse's `total_delay_samples`/`_ms` and the
 /// switch's `requested_by`. Version 3: an inverse's `method` may be chosen by the latency-knee
 /// method (its `knee` says how); added the path's `trade_off` table and `trade_off_error`.
-pub const SCHEMA_VERSION: u32 = 3;
+///
+/// Version 4: the inverse's `correction_band` (the band it corrects, its largest boost inside
+/// and outside, its white-noise gain and what the band and the measured noise changed).
+pub const SCHEMA_VERSION: u32 = 4;
 
 /// The whole link.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -252,8 +255,44 @@ pub struct InverseEntry {
     pub fir: Option<FirEntry>,
     /// How the minimum-phase substitute was built without roots, when it was (long channels).
     pub cepstral: Option<CepstralEntry>,
+    /// The band the inverse corrects and what it does inside and outside it.
+    pub correction_band: Option<CorrectionBandEntry>,
     /// What the latency-knee method chose and why, when it was the method.
     pub knee: Option<KneeEntry>,
+}
+
+/// The correction band and the inverse's figures against it (all gains in dB).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CorrectionBandEntry {
+    pub low_hz: f64,
+    pub high_hz: f64,
+    /// "configured" (`correction_band_hz`) or "default".
+    pub source: String,
+    /// True when the design was redone to roll to unity outside the band (or to respect the
+    /// measured noise); false when it kept to the band as designed.
+    pub limited: bool,
+    /// True when a measured SNR per band (`band_snr_db`) shaped the inverse.
+    pub noise_aware: bool,
+    /// Lowest measured SNR given for a band inside the correction band (null: none given).
+    pub lowest_snr_db: Option<f64>,
+    pub largest_boost_inside_db: f64,
+    pub largest_boost_inside_hz: f64,
+    /// Largest gain outside the band's edges (null when the band is the whole axis).
+    pub largest_boost_outside_db: Option<f64>,
+    pub largest_boost_outside_hz: Option<f64>,
+    /// The same before the design was limited.
+    pub outside_before_db: Option<f64>,
+    pub outside_before_hz: Option<f64>,
+    /// White-noise gain of the inverse, 10·log10(Σ g²).
+    pub noise_gain_db: f64,
+    /// Nominal centre (Hz) of the octave band that holds the largest share of that noise power,
+    /// and the share (0 … 1).
+    pub noise_mostly_from_hz: f64,
+    pub noise_share: f64,
+    /// Share of the noise power inside the band's edges (0 … 1).
+    pub noise_share_in_band: f64,
+    /// Largest deviation of a band-limited recursive design's FIR from its target magnitude.
+    pub fit_error_db: f64,
 }
 
 /// The homomorphic route's figures.

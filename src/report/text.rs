@@ -4,7 +4,8 @@ use std::fmt::Write;
 
 use super::numbers::{fixed, list, significant};
 use super::schema::{
-    CountEntry, InverseEntry, LinkReport, PathReport, RealizationEntry, RootEntry,
+    CorrectionBandEntry, CountEntry, InverseEntry, LinkReport, PathReport, RealizationEntry,
+    RootEntry,
 };
 use super::trade_off_text::{knee_lines, trade_off_block};
 
@@ -484,7 +485,87 @@ fn inverse_block(out: &mut String, inverse: &InverseEntry) {
             ),
         );
     }
+    if let Some(band) = &inverse.correction_band {
+        band_lines(out, band);
+    }
     line(out, 4, "gives up", &inverse.gives_up);
+}
+
+/// The correction band, the largest boost inside and outside it, and the noise gain.
+fn band_lines(out: &mut String, band: &CorrectionBandEntry) {
+    let source = if band.source == "default" {
+        "the default: no boost below 20 Hz nor in the top tenth below half the sample rate"
+    } else {
+        "from the config"
+    };
+    let roll = if band.largest_boost_outside_db.is_none() {
+        "; the whole axis, nothing rolled"
+    } else if band.limited {
+        "; the inverse rolls to unity gain at its edges over a sixth of an octave (redesigned to \
+         keep to it)"
+    } else {
+        "; the inverse keeps to it as designed"
+    };
+    line(
+        out,
+        4,
+        "correction band",
+        &format!(
+            "{}-{} Hz ({source}){roll}",
+            fixed(band.low_hz, 1),
+            fixed(band.high_hz, 1),
+        ),
+    );
+    line(
+        out,
+        4,
+        "boost in band",
+        &format!(
+            "{} dB at {} Hz",
+            fixed(band.largest_boost_inside_db, 2),
+            fixed(band.largest_boost_inside_hz, 1)
+        ),
+    );
+    if let (Some(db), Some(hz)) = (band.largest_boost_outside_db, band.largest_boost_outside_hz) {
+        let before = match (band.outside_before_db, band.outside_before_hz) {
+            (Some(b), Some(h)) if band.limited => format!(
+                " (before keeping to the band: {} dB at {} Hz)",
+                fixed(b, 2),
+                fixed(h, 1)
+            ),
+            _ => String::new(),
+        };
+        line(
+            out,
+            4,
+            "boost outside",
+            &format!("{} dB at {} Hz{before}", fixed(db, 2), fixed(hz, 1)),
+        );
+    }
+    line(
+        out,
+        4,
+        "noise gain",
+        &format!(
+            "{} dB for white noise; {} % of it from the {} Hz octave, {} % inside the band",
+            fixed(band.noise_gain_db, 1),
+            fixed(100.0 * band.noise_share, 0),
+            significant(band.noise_mostly_from_hz),
+            fixed(100.0 * band.noise_share_in_band, 0)
+        ),
+    );
+    if band.noise_aware {
+        line(
+            out,
+            4,
+            "noise-aware",
+            &format!(
+                "gain limited band by band by the measured SNR (lowest in band {})",
+                band.lowest_snr_db
+                    .map_or("not given".to_string(), |s| format!("{} dB", fixed(s, 1)))
+            ),
+        );
+    }
 }
 
 /// The residual delay (the link's own, when there is any), the latency the inverse adds (when

@@ -14,7 +14,12 @@ use serde_json::Value;
 /// Longest wait for anything the service should do by itself (debug builds are slow to plan).
 pub const PATIENCE: Duration = Duration::from_secs(60);
 
-/// A stereo link whose inverse is a short IIR filter (quick to design in a debug build).
+/// A stereo link whose inverse is a short IIR filter (quick to design in a debug build). Both
+/// test links correct the whole axis: the service tests compare played frames with the offline
+/// result exactly, which holds for a recursion whatever the callback's block size; under the
+/// default band their inverses (which boost towards half the sample rate) would become long
+/// FIRs run by partitioned convolution, whose rounding depends on how blocks fall, and which
+/// have their own equality tests against the direct form (src/realize/partitioned_tests.rs).
 pub const LINK_A: &str = r#"# Test link A: a short resonant line (invented).
 [link]
 sample_rate_hz = 48000
@@ -24,6 +29,9 @@ channel_count = 2
 label = "test line A"
 channels = [0, 1]
 difference_equation = { b = [1.0, -0.6, 0.25], a = [1.0, -0.3] }
+
+[path.inverse]
+correction_band_hz = [0, 24000]
 "#;
 
 /// Link A re-measured: slightly different coefficients, so the swap changes the output.
@@ -36,6 +44,9 @@ channel_count = 2
 label = "test line B"
 channels = [0, 1]
 difference_equation = { b = [1.0, -0.5, 0.2], a = [1.0, -0.25] }
+
+[path.inverse]
+correction_band_hz = [0, 24000]
 "#;
 
 /// `[audio]` keys for ALSA's unpaced file devices: they run as fast as the processor allows,

@@ -1,8 +1,10 @@
 //! The optional `[path.inverse]` table: which inverse to build and its safety limits.
 
+use super::band_keys::{read_band_snr, read_correction_band};
 use super::schema::{
-    BOOST_CAP_DB, FIR_DELAY_SAMPLES, FIR_LATENCY_BUDGET_MS, FIR_REGULARIZATION, FIR_TAPS,
-    INVERSE_TABLE, LATENCY_BUDGET_MS, METHOD, STRUCTURE_FALLBACK, UNITY_AT_HZ,
+    BAND_SNR_DB, BOOST_CAP_DB, CORRECTION_BAND_HZ, FIR_DELAY_SAMPLES, FIR_LATENCY_BUDGET_MS,
+    FIR_REGULARIZATION, FIR_TAPS, INVERSE_TABLE, LATENCY_BUDGET_MS, METHOD, STRUCTURE_FALLBACK,
+    UNITY_AT_HZ,
 };
 use super::tree::{Node, Table};
 use crate::model::error::{ConfigError, ConfigErrorKind};
@@ -61,6 +63,12 @@ pub(crate) fn read_inverse(
     }
     if let Some(n) = table.get(STRUCTURE_FALLBACK) {
         policy.structure_fallback = n.boolean()?;
+    }
+    if let Some(n) = table.get(CORRECTION_BAND_HZ) {
+        policy.correction_band_hz = Some(read_correction_band(&n, sample_rate)?);
+    }
+    if let Some(n) = table.get(BAND_SNR_DB) {
+        policy.band_snr = read_band_snr(&n, sample_rate)?;
     }
     read_fir(&table, sample_rate, &mut policy)?;
     read_knee_budget(&table, sample_rate, &mut policy)?;

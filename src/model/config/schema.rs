@@ -68,6 +68,8 @@ pub(crate) const FIR_TAPS: &str = "fir_taps";
 pub(crate) const FIR_DELAY_SAMPLES: &str = "fir_delay_samples";
 pub(crate) const FIR_LATENCY_BUDGET_MS: &str = "fir_latency_budget_ms";
 pub(crate) const FIR_REGULARIZATION: &str = "fir_regularization";
+pub(crate) const CORRECTION_BAND_HZ: &str = "correction_band_hz";
+pub(crate) const BAND_SNR_DB: &str = "band_snr_db";
 pub(crate) const LATENCY_BUDGET_MS: &str = "latency_budget_ms";
 pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
     name: "[path.inverse]",
@@ -80,6 +82,8 @@ pub(crate) const INVERSE_TABLE: TableSchema = TableSchema {
         FIR_DELAY_SAMPLES,
         FIR_LATENCY_BUDGET_MS,
         FIR_REGULARIZATION,
+        CORRECTION_BAND_HZ,
+        BAND_SNR_DB,
         LATENCY_BUDGET_MS,
     ],
 };
