@@ -53,7 +53,7 @@ FIR_DELAY_AFTER_PEAK = 96
 
 
 def room_response():
-    """An invented lecture room, 6 × 4.5 × 3.1 m, walls absorbing 35 % of the energy."""
+    """An invented rehearsal room, 6 × 4.5 × 3.1 m, walls absorbing 35 % of the energy."""
     room = pra.ShoeBox(
         [6.0, 4.5, 3.1], fs=SAMPLE_RATE, materials=pra.Material(0.35), max_order=12
     )
@@ -130,8 +130,8 @@ def generate(out):
     os.makedirs(out, exist_ok=True)
     h = room_response()
     cases = [
-        ("room_256", "the lecture room's response, first 256 taps at 16 kHz", h[:256]),
-        ("room_1024", "the lecture room's response, first 1024 taps at 16 kHz", h[:1024]),
+        ("room_256", "the rehearsal room's response, first 256 taps at 16 kHz", h[:256]),
+        ("room_1024", "the rehearsal room's response, first 1024 taps at 16 kHz", h[:1024]),
     ]
     for name, scenario, b in cases:
         fixture_files.write(os.path.join(out, f"{name}.json"), fixture(name, scenario, b))
