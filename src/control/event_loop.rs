@@ -13,7 +13,7 @@ use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
 use crossbeam_channel::{never, select};
-use log::{info, warn};
+use log::{debug, info, warn};
 
 use super::device_watch::{DeviceWatch, RecoveryPacer};
 use super::metrics_file::MetricsFile;
@@ -39,12 +39,18 @@ pub const BUSY_TICK: Duration = Duration::from_millis(20);
 /// Runs the service until TERM/INT (or `run_for`). Returns once the audio has faded out and
 /// stopped. Errors only at start-up.
 pub fn run_service(options: ServiceOptions) -> Result<(), ServiceError> {
+    // Before any thread starts: with memory locked, glibc's per-thread arenas and moving
+    // thresholds would keep design working sets locked (resident memory climbing by reloads).
+    let tuned = crate::io::live::tune_allocator_for_locking();
     let signals = forward_signals().map_err(ServiceError::Signals)?;
     if current_uid() == Some(0) {
         warn!(
             "running as root: a service like this needs no privileges; run it as an ordinary \
              user (see the example systemd unit)"
         );
+    }
+    if !tuned {
+        debug!("the C allocator took no tuning (not glibc): memory may climb across reloads");
     }
     let started = Instant::now();
     let link = load_link(&options.config).map_err(|e| ServiceError::Config(Box::new(e)))?;

@@ -12,7 +12,9 @@ use std::sync::OnceLock;
 
 use serde::Serialize;
 
-use super::os_scheduling::{effective_root, lock_memory, locked_memory_limit};
+use super::os_scheduling::{
+    effective_root, lock_memory, locked_memory_limit, tune_allocator_for_locked_memory,
+};
 
 /// What became of the request to lock memory.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -43,6 +45,14 @@ impl MemoryLock {
 const HELP: &str = "allow it: LimitMEMLOCK=infinity in the service's systemd unit, or for a user \
                     `@audio - memlock unlimited` in /etc/security/limits.d/ (README \"Real-time \
                     priority\")";
+
+/// Prepares the allocator for a process that may lock its memory (see
+/// `os_scheduling::tune_allocator_for_locked_memory` for why), so what a design frees is given
+/// back and resident memory stays flat across reloads. Call it first thing in a service,
+/// before other threads start. Returns whether the allocator took the settings.
+pub fn tune_allocator_for_locking() -> bool {
+    tune_allocator_for_locked_memory()
+}
 
 /// Locks the process's memory once per process (the lock is process-wide and lasts until
 /// exit); later calls return the first outcome. `wanted = false` asks nothing.

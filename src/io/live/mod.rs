@@ -44,7 +44,7 @@ pub use devices::{list_devices, DEFAULT_DEVICE};
 pub use dither::TpdfDither;
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
 pub use error::{Direction, LiveError};
-pub use memory_lock::{lock_process_memory, MemoryLock};
+pub use memory_lock::{lock_process_memory, tune_allocator_for_locking, MemoryLock};
 pub use playback_side::PlaybackSide;
 pub use playout::PlayoutProgress;
 pub use realtime::{

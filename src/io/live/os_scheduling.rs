@@ -77,6 +77,39 @@ pub(crate) fn effective_root() -> bool {
     unsafe { libc::geteuid() == 0 }
 }
 
+/// Tunes the C allocator for a process that may lock its memory, where the allocator is
+/// glibc's (elsewhere does nothing): one arena for every thread, and fixed thresholds for
+/// giving memory back. Returns whether every setting took.
+///
+/// Why: under `mlockall(MCL_FUTURE)` memory comes back to the system only by `munmap` or by
+/// `sbrk` shrinking the main heap; `madvise(MADV_DONTNEED)`, which glibc uses to shrink a
+/// thread's own arena, is refused on locked pages (madvise(2)). With per-thread arenas each
+/// arena a design worker has used keeps its high-water mark locked for good, and the next
+/// design may land in another arena: resident memory climbs by a design's working set at a
+/// time. One arena (`M_ARENA_MAX`) shrinks with `sbrk`. Fixed thresholds (`M_MMAP_THRESHOLD`,
+/// `M_TRIM_THRESHOLD`, 128 KiB: glibc's own starting values) stop glibc from raising them
+/// after large blocks are freed (its dynamic rule keeps up to 64 MiB at the heap's top), so a
+/// design's large buffers are mapped and unmapped whole and the heap gives back what it does
+/// not use. The control side has few threads and the audio thread allocates nothing, so the
+/// arena's lock is never contended where it matters. Run it before other threads allocate.
+pub(crate) fn tune_allocator_for_locked_memory() -> bool {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    {
+        const GIVE_BACK_BYTES: libc::c_int = 128 * 1024;
+        // SAFETY: mallopt takes two integers and changes the allocator's tuning only; glibc
+        // documents these three parameters as settable at any time (mallopt(3)).
+        unsafe {
+            libc::mallopt(libc::M_ARENA_MAX, 1) == 1
+                && libc::mallopt(libc::M_MMAP_THRESHOLD, GIVE_BACK_BYTES) == 1
+                && libc::mallopt(libc::M_TRIM_THRESHOLD, GIVE_BACK_BYTES) == 1
+        }
+    }
+    #[cfg(not(all(target_os = "linux", target_env = "gnu")))]
+    {
+        false
+    }
+}
+
 /// Locks the process's pages in memory: those mapped now, and with `future` every page mapped
 /// later too. On failure returns the OS error.
 pub(crate) fn lock_memory(future: bool) -> Result<(), std::io::Error> {
