@@ -150,7 +150,8 @@ def swept_levels():
         fits = [k for k in range(2, HIGHEST_HARMONIC + 1) if k * upper <= top]
         level = {k: band_mean(spectra[k - 1], bin_hz, lower, upper, k) for k in fits}
         row = {"index": x, "mid_hz": mid, "lower_hz": lower, "upper_hz": upper}
-        row["second_db"] = 10.0 * np.log10(level[2] / fundamental) if 2 in level else None
+        if 2 in level:
+            row["second_db"] = 10.0 * np.log10(level[2] / fundamental)
         if 3 in level:
             row["third_db"] = 10.0 * np.log10(level[3] / fundamental)
             row["total_db"] = 10.0 * np.log10(sum(level.values()) / fundamental)

@@ -8,11 +8,14 @@
 //! read from the zero-padded spectrum of the k-th window by linear interpolation between bins.
 //! The total adds the numerators of harmonics 2 ..= [`HIGHEST_HARMONIC`].
 //!
-//! The same figure made from a noise-only stretch of the deconvolution, scaled to each
-//! window's length, is the floor below which a harmonic cannot be told from noise.
+//! Below a floor a harmonic cannot be told from what is not one: the same figure made from a
+//! noise-only stretch of the deconvolution (scaled to each window's length), plus what a
+//! perfectly linear link with the measured response would leave in the harmonic's window (the
+//! inverse filter is exact only where the sweep dwells long, so near a short sweep's low end the
+//! linear response smears ahead into the harmonics' windows).
 
 use super::fft::{interpolate_bins, power_spectrum};
-use super::harmonic_windows::{deconvolve_recording, harmonic_windows, Deconvolved};
+use super::harmonic_windows::{deconvolve_recording, harmonic_windows};
 use super::sweep_law::SweepLaw;
 use crate::numeric::fractional_octave::{band_mean_power_db, bands_within, Band};
 
@@ -26,7 +29,8 @@ pub const ABOVE_FLOOR_DB: f64 = 6.0;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct HarmonicLevel {
     pub level_db: f64,
-    /// The noise floor in the same terms; `None` when the recording left no room to measure it.
+    /// The floor in the same terms: noise (when the recording left room to measure it) plus
+    /// the linear response's own leakage into the harmonic's window.
     pub floor_db: Option<f64>,
 }
 
@@ -72,17 +76,7 @@ pub fn harmonic_distortion(
     fraction: u32,
 ) -> Option<HarmonicDistortion> {
     let deconvolved = deconvolve_recording(stimulus, law, recording, sample_rate);
-    distortion_of(&deconvolved, law, sample_rate, fraction)
-}
-
-/// As [`harmonic_distortion`], from a recording already deconvolved.
-pub fn distortion_of(
-    deconvolved: &Deconvolved,
-    law: &SweepLaw,
-    sample_rate: f64,
-    fraction: u32,
-) -> Option<HarmonicDistortion> {
-    let windows = harmonic_windows(deconvolved, law, HIGHEST_HARMONIC, sample_rate)?;
+    let windows = harmonic_windows(&deconvolved, law, HIGHEST_HARMONIC, sample_rate)?;
     let longest = windows.responses.iter().map(|r| r.len()).max()?;
     // Zero padding to twice the longest window keeps the linear interpolation between bins
     // close to the true spectrum.
@@ -99,6 +93,7 @@ pub fn distortion_of(
             r.len() as f64,
         )
     });
+    let leakage = leakage_ratios(stimulus, law, sample_rate, size)?;
     let top = law.end_hz.min(0.5 * sample_rate);
     let mut bands = Vec::new();
     for band in bands_within(fraction, law.start_hz, top / 2.0) {
@@ -115,14 +110,26 @@ pub fn distortion_of(
         };
         let level = |ks: &[usize]| -> HarmonicLevel {
             let power: f64 = ks.iter().map(|&k| mean(&spectra[k - 1], k, 1.0)).sum();
-            let floor = noise.as_ref().map(|(spectrum, length)| {
+            let noise_floor = noise.as_ref().map(|(spectrum, length)| {
                 ks.iter()
                     .map(|&k| mean(spectrum, k, windows.responses[k - 1].len() as f64 / length))
                     .sum::<f64>()
             });
+            // The linear response's own leakage into harmonic k's window, at k·f.
+            let leaked: f64 = ks
+                .iter()
+                .map(|&k| {
+                    let at = |f: f64| {
+                        let hz = k as f64 * f;
+                        interpolate_bins(&spectra[0], bin_hz, hz)
+                            * interpolate_bins(&leakage[k - 1], bin_hz, hz)
+                    };
+                    10f64.powf(band_mean_power_db(&band, at) / 10.0)
+                })
+                .sum();
             HarmonicLevel {
                 level_db: 10.0 * power.log10() - fundamental,
-                floor_db: floor.map(|p| 10.0 * p.log10() - fundamental),
+                floor_db: Some(10.0 * (noise_floor.unwrap_or(0.0) + leaked).log10() - fundamental),
             }
         };
         let counted: Vec<usize> = (2..=HIGHEST_HARMONIC).filter(|&k| fits(k)).collect();
@@ -144,4 +151,46 @@ pub fn distortion_of(
         bands,
         dynamic_range_db,
     })
+}
+
+/// Per bin, what a perfectly linear line leaves in each harmonic's window relative to its
+/// linear window at the same frequency: the stimulus deconvolved as its own recording. The
+/// sweep's inverse filter is exact only where the sweep dwells many cycles per octave (a
+/// stationary-phase approximation, Farina); near a short sweep's low end the linear response
+/// smears ahead of its peak into the harmonics' windows, and a linear link would read as
+/// distorted there. Index k − 1 for harmonic k (index 0 is all ones).
+fn leakage_ratios(
+    stimulus: &[f64],
+    law: &SweepLaw,
+    sample_rate: f64,
+    size: usize,
+) -> Option<Vec<Vec<f64>>> {
+    let own = deconvolve_recording(stimulus, law, stimulus, sample_rate);
+    let windows = harmonic_windows(&own, law, HIGHEST_HARMONIC, sample_rate)?;
+    let spectra: Vec<Vec<f64>> = windows
+        .responses
+        .iter()
+        .map(|r| power_spectrum(&own.samples[r.clone()], size))
+        .collect();
+    let largest = spectra[0].iter().fold(0.0f64, |m, &v| m.max(v));
+    Some(
+        spectra
+            .iter()
+            .map(|spectrum| {
+                spectrum
+                    .iter()
+                    .zip(&spectra[0])
+                    // Outside the sweep's band the linear window holds next to nothing: no
+                    // ratio there (no band is judged there either).
+                    .map(|(&k, &linear)| {
+                        if linear > 1e-12 * largest {
+                            k / linear
+                        } else {
+                            0.0
+                        }
+                    })
+                    .collect()
+            })
+            .collect(),
+    )
 }

@@ -134,7 +134,7 @@ impl ChannelLinearity {
             let level = worst.total.map_or(f64::NAN, |t| t.level_db);
             out.push(format!(
                 "channel {c}: the link distorts: harmonics reach {} ({:.1} %) of the fundamental \
-                 in {} band(s), worst {} at {} Hz (limit {} dB, 1 %); an inverse filter cannot \
+                 in {} band(s), worst {} at {} Hz (limit {}, 1 %); an inverse filter cannot \
                  undo distortion: lower the level into the link, or repair the part that \
                  distorts",
                 db(level),
@@ -153,7 +153,7 @@ impl ChannelLinearity {
             let captures = self.change.as_ref().map_or(0, |x| x.captures);
             out.push(format!(
                 "channel {c}: the link changed between the {captures} captures: their responses \
-                 differ by up to {} of the response ({} band(s), worst at {} Hz; limit {} dB); \
+                 differ by up to {} of the response ({} band(s), worst at {} Hz; limit {}); \
                  an inverse filter fitted to their mean cannot follow a link that changes (a \
                  fading path, a moving reflection): find and remove the cause, or correct only \
                  the bands that stay put",
@@ -221,7 +221,7 @@ pub fn describe_linearity(channels: &[ChannelLinearity], prefix: &str) -> String
                 let _ = writeln!(
                     t,
                     "{prefix}channel {c} harmonic distortion (dB below the fundamental, per \
-                     octave band; '<x' = below the noise floor; limit {} dB); impulse response \
+                     octave band; '<x' = below the floor of noise and leakage; limit {}); impulse response \
                      peak-to-noise {range}",
                     db(DISTORTION_LIMIT_DB)
                 );
@@ -251,7 +251,7 @@ pub fn describe_linearity(channels: &[ChannelLinearity], prefix: &str) -> String
                 let _ = writeln!(
                     t,
                     "{prefix}channel {c} change between {} captures: largest spread {} of the \
-                     response at {} Hz (noise alone: {}; limit {} dB): {}",
+                     response at {} Hz (noise alone: {}; limit {}): {}",
                     change.captures,
                     db(w.spread_db),
                     hz(w.band.nominal_mid_hz()),
