@@ -247,6 +247,7 @@ fn identify_flags_the_bent_line_driver_and_records_it_in_the_config() {
         .iter()
         .find(|w| w.contains("distorts"))
         .expect("a distortion warning");
+    eprintln!("{warning}");
     assert!(warning.contains("cannot undo"), "{warning}");
     // The fitted config carries the table and the warning as comments, and still reads back.
     assert!(outcome

@@ -133,16 +133,15 @@ impl ChannelLinearity {
         }) {
             let level = worst.total.map_or(f64::NAN, |t| t.level_db);
             out.push(format!(
-                "channel {c}: the link distorts: harmonics reach {} ({:.1} %) of the fundamental \
-                 in {} band(s), worst {} at {} Hz (limit {}, 1 %); an inverse filter cannot \
-                 undo distortion: lower the level into the link, or repair the part that \
-                 distorts",
+                "channel {c}: the link distorts: total harmonic distortion reaches {} ({:.1} %) \
+                 of the fundamental at {} Hz, and passes the limit of {} (1 %) in {} band(s); \
+                 an inverse filter cannot undo distortion: lower the level into the link, or \
+                 repair the part that distorts",
                 db(level),
                 100.0 * 10f64.powf(level / 20.0),
-                distorted.len(),
-                db(level),
                 hz(worst.band.nominal_mid_hz()),
-                db(DISTORTION_LIMIT_DB)
+                db(DISTORTION_LIMIT_DB),
+                distorted.len(),
             ));
         }
         let changed = self.changed_bands();
