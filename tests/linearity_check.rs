@@ -367,6 +367,17 @@ fn a_fading_reflection_is_seen_as_change_and_a_steady_link_is_not() {
             b.spread_db
         );
     }
+    // The magnitude-squared coherence over the same bands: 1 / (1 + var(g) / (1 + ḡ²)), the
+    // estimate over repeated records with one stimulus (Bendat & Piersol, from memory).
+    let coherence = 1.0 / (1.0 + variance / (1.0 + mean * mean));
+    for b in change.bands.iter().filter(|b| b.band.exact_mid_hz > 900.0) {
+        assert!(
+            (b.coherence() - coherence).abs() < 0.005,
+            "{} Hz: coherence {:.4} against {coherence:.4}",
+            b.band.nominal_mid_hz(),
+            b.coherence()
+        );
+    }
     assert!(!channel.changed_bands().is_empty());
     assert!(outcome
         .identification

@@ -26,6 +26,15 @@ pub struct BandChange {
 }
 
 impl BandChange {
+    /// The magnitude-squared coherence of the captures with the stimulus over the band: with
+    /// one stimulus X in every capture, γ² = |Σ X*·Y_i|² / (Σ|X|²·Σ|Y_i|²) becomes
+    /// |H̄|² / mean|H_i|², and mean|H_i|² = |H̄|² + spread, so γ² = 1 / (1 + spread ratio)
+    /// (the estimate over N records, Bendat & Piersol, from memory). 1 for a link that holds
+    /// still without noise.
+    pub fn coherence(&self) -> f64 {
+        1.0 / (1.0 + 10f64.powf(self.spread_db / 10.0))
+    }
+
     /// True when the spread stands clear of what noise alone makes.
     pub fn beyond_noise(&self) -> bool {
         self.floor_db

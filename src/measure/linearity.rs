@@ -250,10 +250,11 @@ pub fn describe_linearity(channels: &[ChannelLinearity], prefix: &str) -> String
                 let _ = writeln!(
                     t,
                     "{prefix}channel {c} change between {} captures: largest spread {} of the \
-                     response at {} Hz (noise alone: {}; limit {}): {}",
+                     response at {} Hz, coherence {:.4} (noise alone: {}; limit {}): {}",
                     change.captures,
                     db(w.spread_db),
                     hz(w.band.nominal_mid_hz()),
+                    w.coherence(),
                     w.floor_db.map_or("not measured".to_string(), db),
                     db(CHANGE_LIMIT_DB),
                     if ch.changed_bands().is_empty() {
@@ -306,6 +307,7 @@ pub fn linearity_json(channels: &[ChannelLinearity]) -> Value {
                     "bands": c.bands.iter().map(|b| json!({
                         "nominal_hz": b.band.nominal_mid_hz(),
                         "spread_db": b.spread_db,
+                        "coherence": b.coherence(),
                         "floor_db": b.floor_db,
                         "beyond_noise": b.beyond_noise(),
                     })).collect::<Vec<_>>(),
