@@ -75,6 +75,11 @@ pub enum MeasureCommand {
         /// recording elsewhere).
         #[arg(long, value_name = "FILE")]
         inverse_filter: Option<PathBuf>,
+        /// Play the signal (and its silence) this many times back to back, for `identify
+        /// --repeats`: averaging N captures lowers the noise by 10*log10(N) dB, and comparing
+        /// them shows whether the link changes.
+        #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=64))]
+        repeats: u16,
         /// Write over OUTPUT (and the inverse filter's file) if they exist.
         #[arg(long)]
         replace: bool,
@@ -121,8 +126,13 @@ pub enum MeasureCommand {
         /// Fit B/A of these orders (Steiglitz–McBride) and write it instead of the FIR model.
         #[arg(long, num_args = 2, value_names = ["NUMERATOR", "DENOMINATOR"])]
         iir: Option<Vec<usize>>,
-        /// Write pictures and an index.html of the measurement and the fitted link into this
-        /// folder (created when missing).
+        /// The stimulus holds this many copies back to back (`redress stimulus --repeats`): the
+        /// captures are averaged before fitting and compared with each other.
+        #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u16).range(1..=64))]
+        repeats: u16,
+        /// Write pictures, an index.html and linearity.json (harmonic distortion and change
+        /// between captures) of the measurement and the fitted link into this folder (created
+        /// when missing).
         #[arg(long, value_name = "DIR")]
         report: Option<PathBuf>,
         /// Write over OUTPUT if it exists (never over an input).
@@ -210,6 +220,7 @@ pub fn run(command: MeasureCommand) -> u8 {
             silence,
             channels,
             inverse_filter,
+            repeats,
             replace,
         } => {
             let given = KindOptions {
@@ -245,7 +256,12 @@ pub fn run(command: MeasureCommand) -> u8 {
             if !outputs_allowed(&outputs, &[], existing(replace)) {
                 return exit::FAILED;
             }
-            stimulus(&spec, &output, inverse_filter.as_deref())
+            stimulus(
+                &spec,
+                &output,
+                inverse_filter.as_deref(),
+                usize::from(repeats),
+            )
         }
         MeasureCommand::SimulateRecording {
             config,
@@ -268,6 +284,7 @@ pub fn run(command: MeasureCommand) -> u8 {
             taps,
             most_taps,
             iir,
+            repeats,
             report,
             replace,
         } => {
@@ -290,6 +307,7 @@ pub fn run(command: MeasureCommand) -> u8 {
                     numerator: o[0],
                     denominator: o[1],
                 }),
+                repeats: usize::from(repeats),
             };
             identify(&stimulus, &response, &output, settings, report.as_deref())
         }
@@ -303,7 +321,7 @@ pub fn run(command: MeasureCommand) -> u8 {
     }
 }
 
-fn stimulus(spec: &StimulusSpec, output: &Path, inverse: Option<&Path>) -> u8 {
+fn stimulus(spec: &StimulusSpec, output: &Path, inverse: Option<&Path>, repeats: usize) -> u8 {
     let made = match generate_stimulus(spec) {
         Ok(s) => s,
         Err(e) => {
@@ -312,15 +330,21 @@ fn stimulus(spec: &StimulusSpec, output: &Path, inverse: Option<&Path>) -> u8 {
         }
     };
     let format = WavFormat::float32(spec.channels, spec.sample_rate);
-    if let Err(e) = write_wav(output, &made.interleaved(), format) {
+    if let Err(e) = write_wav(output, &made.repeated_interleaved(repeats), format) {
         eprintln!("error: {e}");
         return exit::FAILED;
     }
     println!("stimulus {}: {}", output.display(), spec.describe());
+    let frames = made.samples.len() * repeats;
     println!(
-        "  {} frames ({:.2} s), {}",
-        made.samples.len(),
-        made.samples.len() as f64 / f64::from(spec.sample_rate),
+        "  {} frames ({:.2} s){}, {}",
+        frames,
+        frames as f64 / f64::from(spec.sample_rate),
+        if repeats > 1 {
+            format!(", {repeats} copies back to back (identify with --repeats {repeats})")
+        } else {
+            String::new()
+        },
         format.describe()
     );
     if let Some(path) = inverse {

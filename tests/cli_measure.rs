@@ -350,3 +350,67 @@ fn plot_writes_pictures_of_a_substitute_with_three_pole_zero_panels() {
         assert!(response.contains(label), "{label}");
     }
 }
+
+#[test]
+fn repeated_sweeps_are_averaged_compared_and_reported_as_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let sweep = dir.path().join("sweep4.wav");
+    let recorded = dir.path().join("recorded4.wav");
+    let out = ok(&[&"stimulus", &sweep, &"--seconds", &"1", &"--repeats", &"4"]);
+    assert!(out.contains("4 copies back to back"), "{out}");
+    ok(&[
+        &"simulate-recording",
+        &truth(),
+        &sweep,
+        &recorded,
+        &"--snr-db",
+        &"40",
+        &"--latency-ms",
+        &"5",
+    ]);
+    let fitted = dir.path().join("fitted.toml");
+    let report = dir.path().join("report");
+    let out = ok(&[
+        &"identify",
+        &sweep,
+        &recorded,
+        &fitted,
+        &"--repeats",
+        &"4",
+        &"--report",
+        &report,
+    ]);
+    // The link is linear and fixed: distortion at the noise floor, the captures alike.
+    assert!(out.contains("channel 0 harmonic distortion"), "{out}");
+    assert!(out.contains("change between 4 captures"), "{out}");
+    assert!(out.contains("the link held still"), "{out}");
+    assert!(!out.contains("distorts"), "{out}");
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(report.join("linearity.json")).unwrap())
+            .unwrap();
+    let channel = &json["channels"][0];
+    assert_eq!(channel["change"]["captures"], 4);
+    assert_eq!(channel["distorted"], false);
+    assert_eq!(channel["changed"], false);
+    assert!(channel["distortion"]["bands"].as_array().unwrap().len() >= 8);
+    // The fitted config keeps the check as comments and still loads.
+    let text = std::fs::read_to_string(&fitted).unwrap();
+    assert!(
+        text.contains("# channel 0 change between 4 captures"),
+        "{text}"
+    );
+    load_link(&fitted).unwrap();
+
+    // Told the wrong number of copies, identify refuses and says what to do.
+    let (exit, _, err) = run(&[
+        &"identify",
+        &sweep,
+        &recorded,
+        &dir.path().join("other.toml"),
+        &"--repeats",
+        &"3",
+    ]);
+    assert_eq!(exit, 1, "{err}");
+    assert!(err.contains("does not hold 3 identical copies"), "{err}");
+    assert!(err.contains("--repeats"), "{err}");
+}

@@ -145,6 +145,7 @@ fn iir_settings(f: &Fixture) -> IdentifySettings {
             numerator: f.numerator_order,
             denominator: f.denominator_order,
         }),
+        repeats: 1,
     }
 }
 

@@ -4,7 +4,8 @@
 # (make_substitute_fixtures.py), tests/fixtures/measure (make_measure_fixtures.py),
 # tests/fixtures/long_channels (make_long_channel_fixtures.py, which also needs pyroomacoustics),
 # tests/fixtures/noise_aware (make_noise_aware_fixtures.py), tests/fixtures/trade_off
-# (make_trade_off_fixtures.py) and tests/fixtures/drift (make_drift_fixtures.py).
+# (make_trade_off_fixtures.py), tests/fixtures/drift (make_drift_fixtures.py) and
+# tests/fixtures/linearity (make_linearity_fixtures.py).
 # Structure, keys, lengths, strings, booleans and integers must match exactly, floating-point
 # values within the tolerances stated in fixture_compare.py (last bits differ between processors
 # and library builds). Exits non-zero when any set differs; every set is always checked.
@@ -38,6 +39,7 @@ status=0
 "$venv/bin/python" "$here/make_noise_aware_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_trade_off_fixtures.py" --check || status=1
 "$venv/bin/python" "$here/make_drift_fixtures.py" --check || status=1
+"$venv/bin/python" "$here/make_linearity_fixtures.py" --check || status=1
 if [ "${REDRESS_FIXTURES_OTHER_PATH:-0}" = 1 ] && [ "$(uname -m)" = x86_64 ]; then
     echo "regenerating with OpenBLAS on another code path (OPENBLAS_CORETYPE=Prescott)" >&2
     OPENBLAS_CORETYPE=Prescott "$venv/bin/python" "$here/make_fixtures.py" --check || status=1

@@ -75,6 +75,12 @@ pub enum MeasureError {
         frames: usize,
         most: usize,
     },
+    /// The stimulus was said to hold several identical copies, and does not.
+    NotRepeated {
+        stimulus: String,
+        repeats: usize,
+        why: String,
+    },
     /// A least-squares system could not be solved.
     Numerical { what: String },
     /// The fitted link has no runnable inverse, so its equalized error cannot be measured.
@@ -188,6 +194,16 @@ impl fmt::Display for MeasureError {
                 f,
                 "an FIR model of {taps} taps cannot be fitted to {frames} frames (at most \
                  {most} taps here)\n  help: ask for fewer taps, or measure with a longer stimulus"
+            ),
+            MeasureError::NotRepeated {
+                stimulus,
+                repeats,
+                why,
+            } => write!(
+                f,
+                "{stimulus} does not hold {repeats} identical copies of one stimulus: {why}\n  \
+                 help: give --repeats the number the stimulus was made with (`redress stimulus \
+                 --repeats N`), or leave it out for a single capture"
             ),
             MeasureError::Numerical { what } => write!(
                 f,

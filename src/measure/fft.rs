@@ -107,6 +107,39 @@ pub(crate) fn welch_power(signal: &[f64], frame: usize) -> Vec<f64> {
     power
 }
 
+/// |X(k)|² of `x` zero-padded to `size` (at least its length), bins 0 ..= size/2.
+pub(crate) fn power_spectrum(x: &[f64], size: usize) -> Vec<f64> {
+    let size = size.max(x.len()).max(2);
+    let mut buffer = padded(x, size);
+    FftPlanner::<f64>::new()
+        .plan_fft_forward(size)
+        .process(&mut buffer);
+    buffer[..=size / 2].iter().map(|c| c.norm_sqr()).collect()
+}
+
+/// X(k) of `x` zero-padded to `size` (at least its length), bins 0 ..= size/2.
+pub(crate) fn complex_spectrum(x: &[f64], size: usize) -> Vec<Complex<f64>> {
+    let size = size.max(x.len()).max(2);
+    let mut buffer = padded(x, size);
+    FftPlanner::<f64>::new()
+        .plan_fft_forward(size)
+        .process(&mut buffer);
+    buffer.truncate(size / 2 + 1);
+    buffer
+}
+
+/// `values` (one per bin, bins `bin_hz` apart from 0 Hz) at `hz`, by linear interpolation
+/// between the two bins around it; 0 beyond the last bin.
+pub(crate) fn interpolate_bins(values: &[f64], bin_hz: f64, hz: f64) -> f64 {
+    let position = hz / bin_hz;
+    let below = position.floor() as usize;
+    match (values.get(below), values.get(below + 1)) {
+        (Some(&a), Some(&b)) => a + (b - a) * (position - below as f64),
+        (Some(&a), None) => a,
+        _ => 0.0,
+    }
+}
+
 fn padded(x: &[f64], size: usize) -> Vec<Complex<f64>> {
     let mut v: Vec<Complex<f64>> = x.iter().map(|&r| Complex::new(r, 0.0)).collect();
     v.resize(size, Complex::new(0.0, 0.0));

@@ -4,6 +4,7 @@
 use std::fmt::Write;
 
 use super::identify::Identification;
+use super::linearity::{describe_linearity, ChannelLinearity};
 use crate::io::format_db;
 
 /// Where the measurement came from, for the header.
@@ -19,7 +20,11 @@ pub struct MeasurementSources {
 
 /// The config text. Coefficients are written in Rust's shortest round-trip form, so reading the
 /// file back gives exactly the fitted numbers.
-pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> String {
+pub fn fitted_config(
+    id: &Identification,
+    sources: &MeasurementSources,
+    linearity: &[ChannelLinearity],
+) -> String {
     let fs = f64::from(id.sample_rate);
     let mut t = String::new();
     let _ = writeln!(
@@ -83,6 +88,9 @@ pub fn fitted_config(id: &Identification, sources: &MeasurementSources) -> Strin
             id.relative_delays[c]
         );
     }
+    // The linearity check as comments: the file stays a plain link config, and whoever reads
+    // it later sees what the inverse could not correct.
+    t.push_str(&describe_linearity(linearity, "# "));
     for w in &id.warnings {
         let _ = writeln!(t, "# warning   {w}");
     }

@@ -32,6 +32,9 @@ pub struct IdentifySettings {
     pub fir_length: FirLength,
     /// Fit B/A of these orders too, and write it rather than the FIR model.
     pub iir: Option<IirOrders>,
+    /// The stimulus holds this many identical copies back to back: the captures are averaged
+    /// before fitting, and compared with each other (1: a single capture).
+    pub repeats: usize,
 }
 
 impl Default for IdentifySettings {
@@ -41,6 +44,7 @@ impl Default for IdentifySettings {
                 most: DEFAULT_MOST_FIR_TAPS,
             },
             iir: None,
+            repeats: 1,
         }
     }
 }

@@ -243,6 +243,12 @@ impl Stimulus {
         out
     }
 
+    /// [`Stimulus::interleaved`] played `repeats` times back to back (each copy with its
+    /// silence), for a measurement whose captures are averaged and compared.
+    pub fn repeated_interleaved(&self, repeats: usize) -> Vec<f32> {
+        self.interleaved().repeat(repeats.max(1))
+    }
+
     /// The sweep's inverse filter (Farina), for deconvolving a recording of this stimulus;
     /// `None` for a maximum-length sequence (whose own deconvolution is a correlation).
     pub fn inverse_filter(&self) -> Option<Vec<f64>> {

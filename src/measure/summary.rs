@@ -79,6 +79,10 @@ pub fn describe_measurement(outcome: &MeasurementOutcome) -> String {
             let _ = writeln!(t, "  equalized error   not measured: {e}");
         }
     }
+    t.push_str(&super::linearity::describe_linearity(
+        &outcome.linearity,
+        "  ",
+    ));
     for w in &id.warnings {
         let _ = writeln!(t, "  warning: {w}");
     }

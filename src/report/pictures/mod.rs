@@ -173,5 +173,13 @@ pub fn write_measurement_report(
         })
         .collect();
     sections.extend(write_link_pictures(&outcome.plan, dir, &trusted)?);
+    // The linearity check as JSON beside the pictures, for tools that read the measurement.
+    let linearity = dir.join("linearity.json");
+    let text = serde_json::to_string_pretty(&crate::measure::linearity_json(&outcome.linearity))
+        .unwrap_or_default();
+    std::fs::write(&linearity, text + "\n").map_err(|e| PictureError {
+        file: linearity.clone(),
+        why: e.to_string(),
+    })?;
     write_index(dir, "redress: link measurement", report_text, &sections)
 }
