@@ -118,7 +118,11 @@ pub(crate) fn find_device(
 /// libraries' own messages through (they are silenced otherwise: see [`QuietStderr`]).
 pub fn list_devices(verbose: bool) -> Result<String, LiveError> {
     let _quiet = (!verbose).then(QuietStderr::new);
-    list_devices_of(&cpal::default_host(), verbose)
+    let mut out = list_devices_of(&cpal::default_host(), verbose)?;
+    // The JACK server's ports, or why it cannot be reached (library or server missing).
+    out.push('\n');
+    out.push_str(&super::jack_host::list_jack());
+    Ok(out)
 }
 
 /// The `[audio] host` values and whether this build opens them, one line.
@@ -128,8 +132,9 @@ fn hosts_line() -> String {
         .map(|h| h.name().to_lowercase())
         .collect();
     format!(
-        "audio hosts: {} (opened by this build); jack, pipewire (not built yet: reach their \
-         servers through the ALSA devices named jack or pipewire, where listed)\n",
+        "audio hosts: {}, jack (opened by this build); pipewire (not built yet: reach its \
+         server through host = \"jack\" with pipewire-jack, or the ALSA device named \
+         pipewire, where listed)\n",
         built.join(", ")
     )
 }
@@ -383,16 +388,17 @@ fn join_ranges(ranges: &BTreeSet<(u32, u32)>) -> String {
 mod tests {
 
     // The `[audio] host` values the config reader accepts are each named, with whether this
-    // build opens them (cpal's available hosts: ALSA on Linux with default features).
+    // build opens them (cpal's available hosts: ALSA on Linux with default features; JACK
+    // through the jack crate).
     #[cfg(target_os = "linux")]
     #[test]
     fn the_hosts_line_names_every_config_host_and_what_this_build_opens() {
         let line = hosts_line();
         assert!(
-            line.starts_with("audio hosts: alsa (opened by this build)"),
+            line.starts_with("audio hosts: alsa, jack (opened by this build)"),
             "{line}"
         );
-        assert!(line.contains("jack, pipewire (not built yet"), "{line}");
+        assert!(line.contains("pipewire (not built yet"), "{line}");
     }
     use super::*;
 
