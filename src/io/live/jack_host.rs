@@ -67,9 +67,11 @@ fn open_client(name: &str) -> Result<Client, LiveError> {
 
 fn describe_status(status: ClientStatus) -> String {
     if status.contains(ClientStatus::SERVER_FAILED) {
-        "no JACK server answers (JACK_DEFAULT_SERVER names the one asked for; \"default\" when \
-         unset)"
-            .to_string()
+        let asked = std::env::var("JACK_DEFAULT_SERVER").unwrap_or_else(|_| "default".into());
+        format!(
+            "no JACK server named `{asked}` answers (JACK_DEFAULT_SERVER names the server; \
+             \"default\" when unset)"
+        )
     } else if status.contains(ClientStatus::VERSION_ERROR) {
         "the client library and the server speak different protocol versions".to_string()
     } else {
@@ -156,7 +158,7 @@ pub fn start_jack(request: &JackRequest<'_>, engine: Engine) -> Result<JackStrea
     if server_rate != request.sample_rate {
         return Err(LiveError::RateMismatch {
             direction: Direction::Capture,
-            device: format!("JACK server (client `{}`)", client.name()),
+            device: format!("jack:{}", client.name()),
             design_rate: request.sample_rate,
             device_rates: vec![format!("{server_rate} Hz")],
         });
@@ -321,8 +323,9 @@ pub fn list_jack() -> String {
     let client = match open_client(LISTING_CLIENT_NAME) {
         Ok(c) => c,
         Err(e) => {
-            let first = e.to_string();
-            let first = first.lines().next().unwrap_or_default().to_string();
+            let text = e.to_string();
+            let first = text.lines().next().unwrap_or_default();
+            let first = first.trim_start_matches("audio host `jack`: ");
             return format!("audio host: jack: not available: {first}\n");
         }
     };
