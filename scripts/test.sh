@@ -2,7 +2,7 @@
 # Runs every check: regenerates the reference fixtures with the pinned numpy/scipy and compares
 # them value by value (within stated tolerances) with the committed ones, builds and runs the
 # whole Rust test suite, a one-minute fuzzing run per target from the committed corpus, and the
-# real-time paced tests on a private PulseAudio. Installs what a fresh Debian/Ubuntu machine
+# real-time paced tests on a private PulseAudio and on a private JACK server. Installs what a fresh Debian/Ubuntu machine
 # lacks (as root or with sudo). Prints how long each stage took at the end.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -12,7 +12,7 @@ source scripts/lib/ensure_tools.sh
 source scripts/lib/stages.sh
 
 stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv systemd man-db \
-    pulseaudio pulseaudio-utils libasound2-plugins
+    pulseaudio pulseaudio-utils libasound2-plugins jackd2
 ensure_cargo
 
 # Also regenerated once with OpenBLAS on another code path, as another processor would run it.
@@ -76,3 +76,7 @@ paced() {
 }
 stage "paced tests: service_paced" paced service_paced
 stage "paced tests: service_paced_faults" paced service_paced_faults
+# The JACK host: the test starts its own jackd (dummy driver, no real-time, a private server
+# name) and stops it by PID; the service runs as one JACK client between a feeding and a
+# recording client.
+stage "paced tests: service_jack (private jackd)" paced service_jack
