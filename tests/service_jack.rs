@@ -313,6 +313,14 @@ fn jack_host_matches_offline_through_a_reload() {
         CHANNELS,
         breaks
     );
+    let f = |p: &str| end.pointer(p).and_then(|v| v.as_f64()).unwrap_or(f64::NAN);
+    eprintln!(
+        "engine time per callback: p50 {:.1} us, p99 {:.1} us, max {:.1} us of a {:.0} us block",
+        f("/engine/callback_p50_us"),
+        f("/engine/callback_p99_us"),
+        f("/engine/callback_max_us"),
+        f("/audio/block_period_us")
+    );
     // No ring and one clock: nothing can be lost or repeated unless the server says so (a late
     // cycle in the dummy driver's non-real-time mode usually costs nothing: the server still
     // runs every client of the cycle, late), and each xrun costs at most one break.

@@ -272,6 +272,33 @@ mod tests {
         assert!(std::error::Error::source(&e).is_some());
     }
 
+    // A graph host that cannot be reached says which part is missing and what to do.
+    #[test]
+    fn an_unreachable_graph_host_names_what_is_missing() {
+        let library = LiveError::HostUnavailable {
+            host: "jack",
+            missing: HostMissing::Library,
+            detail: "libjack.so.0: cannot open shared object file".into(),
+        }
+        .to_string();
+        assert!(
+            library.starts_with("audio host `jack`: its client library is not installed"),
+            "{library}"
+        );
+        assert!(library.contains("help: install it"), "{library}");
+        let server = LiveError::HostUnavailable {
+            host: "jack",
+            missing: HostMissing::Server,
+            detail: "no JACK server named `default` answers".into(),
+        }
+        .to_string();
+        assert!(
+            server.starts_with("audio host `jack`: its server is not running"),
+            "{server}"
+        );
+        assert!(server.contains("help: start it"), "{server}");
+    }
+
     #[test]
     fn missing_device_lists_what_there_is() {
         let e = LiveError::NoSuchDevice {

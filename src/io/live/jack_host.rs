@@ -154,7 +154,7 @@ pub fn start_jack(request: &JackRequest<'_>, engine: Engine) -> Result<JackStrea
         }
     }
     let client = open_client(CLIENT_NAME)?;
-    let server_rate = client.sample_rate() as u32;
+    let server_rate = client.sample_rate();
     if server_rate != request.sample_rate {
         return Err(LiveError::RateMismatch {
             direction: Direction::Capture,
@@ -185,16 +185,14 @@ pub fn start_jack(request: &JackRequest<'_>, engine: Engine) -> Result<JackStrea
         outputs.push(port);
     }
     let block_frames = client.buffer_size();
-    let full_name = |p: &Result<String, jack::Error>, short: String| {
-        p.as_ref()
-            .map(String::clone)
-            .unwrap_or_else(|_| format!("{}:{short}", client.name()))
+    let full_name = |name: Result<String, jack::Error>, short: String| {
+        name.unwrap_or_else(|_| format!("{}:{short}", client.name()))
     };
     let our_inputs: Vec<String> = (0..channels)
-        .map(|c| full_name(&inputs[c].name(), input_port_name(c)))
+        .map(|c| full_name(inputs[c].name(), input_port_name(c)))
         .collect();
     let our_outputs: Vec<String> = (0..channels)
-        .map(|c| full_name(&outputs[c].name(), output_port_name(c)))
+        .map(|c| full_name(outputs[c].name(), output_port_name(c)))
         .collect();
     let client_name = client.name().to_string();
 
@@ -303,7 +301,7 @@ impl NotificationHandler for Notifications {
     }
 
     fn sample_rate(&mut self, _: &Client, rate: jack::Frames) -> Control {
-        if rate as u32 != self.design_rate {
+        if rate != self.design_rate {
             // The design no longer fits the graph: the stream must be rebuilt (and then
             // refused with both rates named).
             self.errors.record(StreamErrorKind::StreamInvalidated);
