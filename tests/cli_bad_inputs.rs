@@ -55,7 +55,7 @@ struct Files {
     newer_format: PathBuf,
     mono_16k: PathBuf,
     unknown_device: PathBuf,
-    jack_host: PathBuf,
+    pipewire_host: PathBuf,
     typographic_minus: PathBuf,
 }
 
@@ -145,7 +145,7 @@ fn files() -> Files {
             ),
         )
     };
-    let jack_host = with_audio("studio_graph.toml", "host = \"jack\"\n");
+    let pipewire_host = with_audio("studio_graph.toml", "host = \"pipewire\"\n");
     let typographic_minus = write_file(
         &d,
         "pasted.toml",
@@ -159,7 +159,7 @@ fn files() -> Files {
         newer_format,
         mono_16k,
         unknown_device,
-        jack_host,
+        pipewire_host,
         small,
         _dir: dir,
         dir: d,
@@ -664,15 +664,15 @@ fn catalogue(f: &Files) -> Vec<Case> {
             "a host this build does not have",
             &[
                 "run",
-                &p(&f.jack_host),
+                &p(&f.pipewire_host),
                 "--socket",
                 &p(&f.dir.join("r6/s.sock")),
             ],
             1,
             &[
-                "`host` = jack",
-                "ALSA devices only",
-                "help: set host = \"alsa\"",
+                "`host` = pipewire",
+                "no PipeWire host yet",
+                "help: set host = \"jack\"",
             ],
         ),
     ]

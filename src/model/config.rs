@@ -32,15 +32,15 @@
 //! fir_regularization = 0        # least_squares_fir only, ≥ 0
 //!
 //! [audio]                       # optional; devices of the live service (defaults shown)
-//! host = "alsa"                 # "alsa" | "jack" | "pipewire"
+//! host = "alsa"                 # "alsa" | "jack" ("pipewire": read, refused at start)
 //! input_device = "default"      # "default", a device id, or part of a device name
 //! output_device = "default"
 //! buffer_frames = 256           # optional, 16..=16384
 //! callback_priority = 70        # SCHED_FIFO priority asked for, 0..=98 (0: ask nothing)
 //! lock_memory = true            # mlockall where the limits allow
 //! clocks = "auto"               # "auto" | "shared" | "separate" (resample against drift)
-//! connect_inputs = []           # host = "jack" only: ports feeding the inputs, in order
-//! connect_outputs = []          # host = "jack" only: ports the outputs feed, in order
+//! connect_inputs = []           # host = "jack" only: ports feeding redress:in_1, in_2, …
+//! connect_outputs = []          # host = "jack" only: ports redress:out_1, out_2, … feed
 //!
 //! [engine]                      # optional; guards of the live service (defaults shown)
 //! crossfade_ms = 20

@@ -9,6 +9,9 @@
 //! counted in the engine's `input_overruns` / `output_underruns`, so the two streams never
 //! drift apart silently.
 //!
+//! On JACK there is no ring: the server hands one client its capture and playback buffers in
+//! the same process callback, and the engine runs there ([`graph_side`], `jack_host`).
+//!
 //! Both callbacks allocate nothing, lock nothing and do no I/O or logging; the streams' error
 //! callbacks only count into atomics ([`StreamErrorCounter`]) and the control thread reports.
 //! The callback bodies are plain methods so tests run the real code without a device.
