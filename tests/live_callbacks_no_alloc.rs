@@ -393,7 +393,7 @@ fn the_graph_hosts_one_callback_allocates_nothing() {
     let left: Vec<f32> = sine(3 * PERIOD, 1, 440.0, 0.3, 0);
     let right: Vec<f32> = sine(3 * PERIOD, 1, 660.0, 0.2, 0);
     let mut out = [vec![0.0f32; left.len()], vec![0.0f32; left.len()]];
-    let mut cycle = |side: &mut GraphSide, frames: usize, out: &mut [Vec<f32>; 2]| {
+    let cycle = |side: &mut GraphSide, frames: usize, out: &mut [Vec<f32>; 2]| {
         side.begin_cycle();
         let mut at = 0;
         while at < frames {
