@@ -5,7 +5,8 @@
 //! once `jackd` (Debian jackd2) is installed.
 //!
 //! The service runs about five seconds; in the middle it gets a SIGHUP with a re-measured link
-//! (it must swap to it), then SIGTERM (exit 0). On JACK the engine runs in the process callback
+//! (it must swap to it), then the server's block size changes from 256 to 512 frames, then
+//! SIGTERM (exit 0). On JACK the engine runs in the process callback
 //! that hands it both buffers, so there is no ring: the recording must equal the offline result
 //! of the first filter up to the reload and of the second after it, frame for frame at one
 //! constant alignment, with no gap at all unless the server counted an xrun.
@@ -209,7 +210,20 @@ fn jack_host_matches_offline_through_a_reload() {
         "the reload restarted the client"
     );
     let swap_frame = u(&swapped, "/engine/frames");
-    let end = svc.wait_for("1.5 s after the swap", frames_at_least(swap_frame + 72_000));
+    // The server changes its block size while the service runs (as a graph host may): the
+    // engine goes on with the new size, and the audio stays exact through it.
+    svc.wait_for("0.5 s after the swap", frames_at_least(swap_frame + 24_000));
+    feed.as_client()
+        .set_buffer_size(2 * BLOCK)
+        .expect("the server takes a new block size");
+    let resized = svc.wait_for("the new block size in status", |d| {
+        d.pointer("/audio/block_frames").and_then(|v| v.as_u64()) == Some(u64::from(2 * BLOCK))
+    });
+    let resize_frame = u(&resized, "/engine/frames");
+    let end = svc.wait_for(
+        "1 s after the block size changed",
+        frames_at_least(resize_frame + 48_000),
+    );
     let end_frame = u(&end, "/engine/frames");
     go.store(false, Ordering::Release);
     svc.signal("TERM");
@@ -307,10 +321,13 @@ fn jack_host_matches_offline_through_a_reload() {
     );
     eprintln!(
         "jack run: {} frames ({} channels) equal to the offline result within {TOLERANCE} \
-         ({compared_a} before the reload, {compared_b} after); alignment shift at the swap \
+         ({compared_a} before the reload, {compared_b} after, through the block size's change \
+         from {BLOCK} to {} frames at programme frame {}); alignment shift at the swap \
          {shift}; breaks {:?}; xruns the server reported {xruns}",
         compared_a + compared_b,
         CHANNELS,
+        2 * BLOCK,
+        to_programme(resize_frame),
         breaks
     );
     let f = |p: &str| end.pointer(p).and_then(|v| v.as_f64()).unwrap_or(f64::NAN);
