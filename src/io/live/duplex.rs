@@ -6,13 +6,13 @@ use std::sync::Arc;
 use cpal::traits::{DeviceTrait, StreamTrait};
 
 use super::capture_side::CaptureSide;
-use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
+use super::devices::{device_label, find_device, open_host, supported_configs, DEFAULT_DEVICE};
 use super::error::{Direction, LiveError};
 use super::jack_host::{start_jack, JackRequest, JackStreams};
 use super::memory_lock::lock_process_memory;
 use super::playback_side::PlaybackSide;
 use super::playout::PlayoutProgress;
-use super::realtime::{request_for_priority, SchedulingWatch};
+use super::realtime::{request_for_priority, LeftBecause, SchedulingRequest, SchedulingWatch};
 use super::ring::{duplex_sides, duplex_sides_two_clocks, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
@@ -259,7 +259,7 @@ pub fn start_duplex(
     if request.host == AudioHost::Jack {
         return start_on_jack(request, engine);
     }
-    let host = cpal::default_host();
+    let host = open_host(request.host)?;
     let input_device = find_device(&host, &request.input, Direction::Capture)?;
     let output_device = find_device(&host, &request.output, Direction::Playback)?;
     let input_label = device_label(&input_device);
@@ -286,7 +286,12 @@ pub fn start_duplex(
     let playout = capture.playout();
     // Before the streams start: with the future pages locked, their threads' stacks are too.
     let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
-    let asked = request_for_priority(request.callback_priority);
+    // A PipeWire server schedules its clients' data threads (its real-time module or RTKit):
+    // nothing is asked, what they run at is recorded.
+    let asked = match request.host {
+        AudioHost::PipeWire => SchedulingRequest::LeaveAsIs(LeftBecause::Server),
+        AudioHost::Alsa | AudioHost::Jack => request_for_priority(request.callback_priority),
+    };
     scheduling.add("capture and engine", asked, capture.set_scheduling(asked));
     scheduling.add("playback", asked, playback.set_scheduling(asked));
 
@@ -389,25 +394,20 @@ fn start_on_jack(request: &DeviceRequest, engine: Engine) -> Result<DuplexStream
 fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveError> {
     // Refused rather than run on ALSA under another name: `status` would report a host the
     // audio does not go through.
-    if request.host == AudioHost::PipeWire {
-        return Err(LiveError::InvalidRequest {
-            field: "host",
-            value: request.host.key().to_string(),
-            why: "this build of redress has no PipeWire host yet".to_string(),
-            help: "set host = \"jack\" (PipeWire serves JACK clients through pipewire-jack), \
-                   or host = \"alsa\" with input_device = output_device = \"pipewire\" as \
-                   `redress devices` lists it"
-                .to_string(),
-        });
-    }
-    if request.host == AudioHost::Jack && request.clocks == Clocks::Separate {
+    if request.host != AudioHost::Alsa && request.clocks == Clocks::Separate {
         return Err(LiveError::InvalidRequest {
             field: "clocks",
             value: "separate".to_string(),
-            why: "a JACK graph runs every port on the server's one clock; there is no second \
-                  clock to follow"
-                .to_string(),
-            help: "leave clocks out (or \"shared\") with host = \"jack\"".to_string(),
+            why: format!(
+                "a {} graph runs the service's capture and playback on the server's one clock \
+                 (the server itself follows devices on other clocks); there is no second clock \
+                 to follow",
+                request.host.key()
+            ),
+            help: format!(
+                "leave clocks out (or \"shared\") with host = \"{}\"",
+                request.host.key()
+            ),
         });
     }
     let (lo, hi) = SAMPLE_RATE_RANGE;

@@ -225,13 +225,25 @@ impl fmt::Display for LiveError {
                 host,
                 missing: HostMissing::Server,
                 detail,
-            } => write!(
-                f,
-                "audio host `{host}`: its server is not running ({detail})\n  help: start it \
-                 as the user the service runs as (e.g. `jackd -d alsa -r 48000`, or through \
-                 the desktop's session), check JACK_DEFAULT_SERVER if a named server is meant, \
-                 or set [audio] host = \"alsa\""
-            ),
+            } => {
+                let how = match *host {
+                    "jack" => {
+                        "start it as the user the service runs as (e.g. `jackd -d alsa -r \
+                         48000`, or through the desktop's session), check JACK_DEFAULT_SERVER \
+                         if a named server is meant"
+                    }
+                    _ => {
+                        "start it (`pipewire` with its session manager `wireplumber`) as the user \
+                         the service runs as, and run the service in that user's session \
+                         (XDG_RUNTIME_DIR must lead to the server's socket)"
+                    }
+                };
+                write!(
+                    f,
+                    "audio host `{host}`: its server is not running ({detail})\n  help: {how}, \
+                     or set [audio] host = \"alsa\""
+                )
+            }
             LiveError::Graph {
                 host,
                 context,
