@@ -32,7 +32,7 @@
 //! fir_regularization = 0        # least_squares_fir only, ≥ 0
 //!
 //! [audio]                       # optional; devices of the live service (defaults shown)
-//! host = "alsa"                 # "alsa" | "jack" ("pipewire": read, refused at start)
+//! host = "alsa"                 # "alsa" | "jack" | "pipewire"
 //! input_device = "default"      # "default", a device id, or part of a device name
 //! output_device = "default"
 //! buffer_frames = 256           # optional, 16..=16384
