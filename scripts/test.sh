@@ -2,8 +2,9 @@
 # Runs every check: regenerates the reference fixtures with the pinned numpy/scipy and compares
 # them value by value (within stated tolerances) with the committed ones, builds and runs the
 # whole Rust test suite, a one-minute fuzzing run per target from the committed corpus, and the
-# real-time paced tests on a private PulseAudio. Installs what a fresh Debian/Ubuntu machine
-# lacks (as root or with sudo). Prints how long each stage took at the end.
+# real-time paced tests on a private PulseAudio, a private JACK server and a private PipeWire.
+# Installs what a fresh Debian/Ubuntu machine lacks (as root or with sudo). Prints how long each
+# stage took at the end.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 # shellcheck source=lib/ensure_tools.sh
@@ -12,7 +13,8 @@ source scripts/lib/ensure_tools.sh
 source scripts/lib/stages.sh
 
 stage "packages and toolchain" ensure_packages "${BUILD_PACKAGES[@]}" python3 python3-venv systemd man-db \
-    pulseaudio pulseaudio-utils libasound2-plugins
+    pulseaudio pulseaudio-utils libasound2-plugins jackd2 \
+    pipewire pipewire-bin wireplumber dbus-daemon
 ensure_cargo
 
 # Also regenerated once with OpenBLAS on another code path, as another processor would run it.
@@ -76,3 +78,11 @@ paced() {
 }
 stage "paced tests: service_paced" paced service_paced
 stage "paced tests: service_paced_faults" paced service_paced_faults
+# The JACK host: the test starts its own jackd (dummy driver, no real-time, a private server
+# name) and stops it by PID; the service runs as one JACK client between a feeding and a
+# recording client.
+stage "paced tests: service_jack (private jackd)" paced service_jack
+# The PipeWire host: the test starts its own pipewire daemon in a runtime folder of its own,
+# wireplumber under a private D-Bus session (dbus-run-session), and two null-sink nodes; all
+# stopped by PID. The service captures one sink's monitor and plays into the other.
+stage "paced tests: service_pipewire (private pipewire)" paced service_pipewire

@@ -55,7 +55,6 @@ struct Files {
     newer_format: PathBuf,
     mono_16k: PathBuf,
     unknown_device: PathBuf,
-    jack_host: PathBuf,
     typographic_minus: PathBuf,
 }
 
@@ -135,17 +134,6 @@ fn files() -> Files {
          difference_equation = { b = [1.0, -0.5], a = [1.0] }\n\n[audio]\n\
          input_device = \"no such rack amp anywhere\"\n",
     );
-    let with_audio = |name: &str, audio: &str| {
-        write_file(
-            &d,
-            name,
-            &format!(
-                "[link]\nsample_rate_hz = 48000\nchannel_count = 1\n\n[[path]]\nchannels = [0]\n\
-                 difference_equation = {{ b = [1.0, -0.5], a = [1.0] }}\n\n[audio]\n{audio}"
-            ),
-        )
-    };
-    let jack_host = with_audio("studio_graph.toml", "host = \"jack\"\n");
     let typographic_minus = write_file(
         &d,
         "pasted.toml",
@@ -159,7 +147,6 @@ fn files() -> Files {
         newer_format,
         mono_16k,
         unknown_device,
-        jack_host,
         small,
         _dir: dir,
         dir: d,
@@ -658,22 +645,6 @@ fn catalogue(f: &Files) -> Vec<Case> {
             ],
             1,
             &["no capture device matches", "redress devices"],
-        ),
-        // Not yet built: refused by name rather than run on ALSA under another host's name.
-        case(
-            "a host this build does not have",
-            &[
-                "run",
-                &p(&f.jack_host),
-                "--socket",
-                &p(&f.dir.join("r6/s.sock")),
-            ],
-            1,
-            &[
-                "`host` = jack",
-                "ALSA devices only",
-                "help: set host = \"alsa\"",
-            ],
         ),
     ]
 }

@@ -379,3 +379,58 @@ fn two_clock_sides_allocate_nothing_and_publish_the_drift() {
     );
     assert!(out.iter().any(|v| *v != 0.0));
 }
+
+// Source: common practice for real-time audio — no (de)allocation on the audio thread. The
+// graph host's one-callback body (JACK's process callback runs exactly these calls per port),
+// through blocks of changing size (longer ones split into chunks) and a filter swap.
+#[test]
+fn the_graph_hosts_one_callback_allocates_nothing() {
+    use redress::io::live::graph_side::GraphSide;
+
+    let settings = EngineSettings::defaults(CHANNELS, 48_000.0);
+    let (engine, mut control) = engine_pair(settings, Some(inverse_set(&echo_line(), CHANNELS, 1)));
+    let mut side = GraphSide::new(engine, PERIOD);
+    let left: Vec<f32> = sine(3 * PERIOD, 1, 440.0, 0.3, 0);
+    let right: Vec<f32> = sine(3 * PERIOD, 1, 660.0, 0.2, 0);
+    let mut out = [vec![0.0f32; left.len()], vec![0.0f32; left.len()]];
+    let cycle = |side: &mut GraphSide, frames: usize, out: &mut [Vec<f32>; 2]| {
+        side.begin_cycle();
+        let mut at = 0;
+        while at < frames {
+            let len = (frames - at).min(side.chunk_frames());
+            side.put_input(0, &left[at..at + len]);
+            side.put_input(1, &right[at..at + len]);
+            side.run(len);
+            let [l, r] = out;
+            side.take_output(0, &mut l[at..at + len]);
+            side.take_output(1, &mut r[at..at + len]);
+            at += len;
+        }
+    };
+    // The first call records the thread's schedule (the server's business: nothing asked).
+    cycle(&mut side, PERIOD, &mut out);
+    reset_violation_count();
+    for &frames in [PERIOD, 64, 3 * PERIOD, 17, PERIOD]
+        .iter()
+        .cycle()
+        .take(100)
+    {
+        assert_no_alloc(|| cycle(&mut side, frames, &mut out));
+    }
+    assert!(control
+        .send(inverse_set(&resonant_line(), CHANNELS, 2))
+        .is_ok());
+    for &frames in [PERIOD, 3 * PERIOD, 32].iter().cycle().take(200) {
+        assert_no_alloc(|| cycle(&mut side, frames, &mut out));
+    }
+    assert_eq!(violation_count(), 0, "the one-callback body allocated");
+    assert_eq!(
+        control.snapshot().swaps_completed,
+        1,
+        "the swap ran through"
+    );
+    assert!(
+        out[0].iter().any(|&y| y.abs() > 0.01),
+        "the engine's output reached the output buffers"
+    );
+}

@@ -259,12 +259,13 @@ fn duplex_on_file_devices_plays_the_offline_result() {
     let config = streams.config().clone();
     assert_eq!(config.input_format, DeviceFormat::F32);
     assert_eq!(config.output_format, DeviceFormat::F32);
-    assert_eq!(config.ring.prefill_frames(), 2 * PERIOD);
+    let ring = config.ring.expect("ALSA devices run with a ring");
+    assert_eq!(ring.prefill_frames(), 2 * PERIOD);
 
     // Stop once playback has certainly taken the prefill and the two signal periods out of the
     // ring: samples in the file minus silence inserted (read after the file size, so never an
     // overestimate). The deadline only guards against a hang.
-    let needed = ((config.ring.prefill_frames() + 2 * PERIOD) * CHANNELS) as u64;
+    let needed = ((ring.prefill_frames() + 2 * PERIOD) * CHANNELS) as u64;
     let deadline = Instant::now() + Duration::from_secs(20);
     loop {
         let written = std::fs::metadata(&outfile).map_or(0, |m| m.len() / 4);

@@ -58,6 +58,9 @@ ensure_cargo() {
     export PATH="$HOME/.cargo/bin:$PATH"
 }
 
-# What building redress needs: a C toolchain and linker, pkg-config, and the ALSA headers the
-# live-audio crate links against.
-BUILD_PACKAGES=(build-essential pkg-config libasound2-dev)
+# What building redress needs: a C toolchain and linker, pkg-config, the ALSA and PipeWire
+# headers the live-audio crate links against (libclang for the PipeWire bindings' bindgen), and
+# JACK's (the jack crate's build script finds the library with pkg-config, although it loads
+# libjack only when the JACK host is used).
+BUILD_PACKAGES=(build-essential pkg-config libasound2-dev libpipewire-0.3-dev libclang-dev
+    libjack-jackd2-dev)

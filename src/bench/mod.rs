@@ -35,7 +35,7 @@ pub use round_trip::{analyse, measure_round_trip, RoundTrip, RoundTripOptions};
 
 use crate::engine::{EngineError, Equalizer};
 use crate::io::live::{RingPlan, PREFILL_PERIODS};
-use crate::model::Link;
+use crate::model::{AudioHost, Link};
 use crate::pipeline::{plan_link, LinkPlan};
 
 /// Block size when the config names none (`[audio] buffer_frames`).
@@ -74,7 +74,12 @@ pub struct BaselineComparison {
 /// The delay the live path adds besides the filters' own, for the timed block size.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LivePathLatency {
-    /// Silence the ring between the capture and playback callbacks starts with.
+    /// The config's `[audio] host`.
+    pub host: &'static str,
+    /// "ring" (capture and playback callbacks with a ring between them, ALSA) or
+    /// "one_callback" (capture, engine and playback in the graph's one callback, JACK: no ring).
+    pub runs_as: &'static str,
+    /// Silence the ring between the capture and playback callbacks starts with (0: no ring).
     pub ring_prefill_frames: usize,
     pub ring_prefill_ms: f64,
     /// Largest algorithmic latency over the channels.
@@ -163,13 +168,21 @@ pub fn bench_link(
         .max()
         .unwrap_or(0);
     let ms = |frames: usize| 1000.0 * frames as f64 / link.sample_rate;
-    let live_path = LivePathLatency {
-        ring_prefill_frames: ring.prefill_frames(),
-        ring_prefill_ms: ms(ring.prefill_frames()),
-        max_algorithmic_latency_samples: max_latency,
-        added_by_redress_ms: ms(ring.prefill_frames() + max_latency),
-    };
     debug_assert_eq!(ring.prefill_frames(), PREFILL_PERIODS * block_frames);
+    // JACK hands the client capture and playback in one callback: no ring, no prefill.
+    let host = link.runtime.audio.host;
+    let (runs_as, prefill) = match host {
+        AudioHost::Jack => ("one_callback", 0),
+        AudioHost::Alsa | AudioHost::PipeWire => ("ring", ring.prefill_frames()),
+    };
+    let live_path = LivePathLatency {
+        host: host.key(),
+        runs_as,
+        ring_prefill_frames: prefill,
+        ring_prefill_ms: ms(prefill),
+        max_algorithmic_latency_samples: max_latency,
+        added_by_redress_ms: ms(prefill + max_latency),
+    };
     let (round_trip, round_trip_error) = match &options.round_trip {
         None => (None, None),
         Some(rt) => match measure_round_trip(rt) {

@@ -101,9 +101,14 @@ pub fn render_text(r: &BenchReport) -> String {
         );
     }
     let lp = &r.live_path;
+    let how = match lp.runs_as {
+        "one_callback" => "capture, engine and playback in one callback, no ring",
+        _ => "a capture and a playback callback with a ring between them",
+    };
+    let _ = writeln!(s, "\nhost                {}: {how}", lp.host);
     let _ = writeln!(
         s,
-        "\nlive path           ring prefill {} frames ({:.2} ms) + largest algorithmic latency {} samples = {:.2} ms added by redress, before device buffering",
+        "live path           ring prefill {} frames ({:.2} ms) + largest algorithmic latency {} samples = {:.2} ms added by redress, before device buffering",
         lp.ring_prefill_frames, lp.ring_prefill_ms, lp.max_algorithmic_latency_samples, lp.added_by_redress_ms
     );
     if let Some(rt) = &r.round_trip {

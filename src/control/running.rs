@@ -141,6 +141,8 @@ impl RunningAudio {
                     lock_memory: link.runtime.audio.lock_memory,
                     host: link.runtime.audio.host,
                     clocks: link.runtime.audio.clocks,
+                    connect_inputs: link.runtime.audio.connect_inputs.clone(),
+                    connect_outputs: link.runtime.audio.connect_outputs.clone(),
                 };
                 let streams = start_duplex(&request, engine, control.stats())
                     .map_err(|e| ServiceError::Audio(e.to_string()))?;
@@ -205,13 +207,19 @@ impl RunningAudio {
             Driver::Simulated(_) => "simulated link",
         };
         let stream_errors = self.stream_error_count();
+        // A graph server may change its block size while running: report the one it runs now.
+        let block_frames = match &self.driver {
+            Driver::Devices(d) => d.block_frames_now().map(|b| b as usize),
+            Driver::Simulated(_) => None,
+        }
+        .or(self.block_frames);
         AudioStatus {
             kind: kind.to_string(),
             description: self.description.clone(),
             sample_rate_hz: self.sample_rate,
             channels: self.channels,
-            block_frames: self.block_frames,
-            block_period_us: self.block_frames.map(|b| 1e6 * b as f64 / self.sample_rate),
+            block_frames,
+            block_period_us: block_frames.map(|b| 1e6 * b as f64 / self.sample_rate),
             stream_errors,
             restarts,
             state: "running".to_string(),
@@ -237,7 +245,7 @@ impl RunningAudio {
     /// ring between them) or "one_callback" (capture, engine and playback in one call).
     fn runs_as(&self) -> &'static str {
         match &self.driver {
-            Driver::Devices(_) => "ring",
+            Driver::Devices(d) => d.config().runs_as(),
             Driver::Simulated(_) => "one_callback",
         }
     }

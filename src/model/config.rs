@@ -39,8 +39,8 @@
 //! callback_priority = 70        # SCHED_FIFO priority asked for, 0..=98 (0: ask nothing)
 //! lock_memory = true            # mlockall where the limits allow
 //! clocks = "auto"               # "auto" | "shared" | "separate" (resample against drift)
-//! connect_inputs = []           # host = "jack" only: ports feeding the inputs, in order
-//! connect_outputs = []          # host = "jack" only: ports the outputs feed, in order
+//! connect_inputs = []           # host = "jack" only: ports feeding redress:in_1, in_2, …
+//! connect_outputs = []          # host = "jack" only: ports redress:out_1, out_2, … feed
 //!
 //! [engine]                      # optional; guards of the live service (defaults shown)
 //! crossfade_ms = 20

@@ -4,6 +4,7 @@
 #![allow(dead_code)] // each test file uses its own subset
 
 pub mod recording;
+pub mod settled;
 
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, ExitStatus, Stdio};

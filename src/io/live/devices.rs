@@ -5,10 +5,38 @@ use std::collections::BTreeSet;
 use cpal::traits::{DeviceTrait, HostTrait};
 use cpal::{DeviceId, SupportedBufferSize, SupportedStreamConfigRange};
 
-use super::error::{Direction, LiveError};
+use super::error::{Direction, HostMissing, LiveError};
 use super::quiet_stderr::QuietStderr;
 use super::samples::DeviceFormat;
 use crate::model::{BUFFER_FRAMES_RANGE, SAMPLE_RATE_RANGE};
+
+/// The cpal host for `host` (ALSA or PipeWire; JACK has its own client, see `jack_host`).
+/// Named, never cpal's default: with PipeWire built in, cpal's default host is PipeWire
+/// whenever a PipeWire server answers, and `host = "alsa"` must mean ALSA.
+pub(crate) fn open_host(host: crate::model::AudioHost) -> Result<cpal::Host, LiveError> {
+    use crate::model::AudioHost;
+    match host {
+        AudioHost::PipeWire => {
+            cpal::host_from_id(cpal::HostId::PipeWire).map_err(|e| LiveError::HostUnavailable {
+                host: "pipewire",
+                missing: HostMissing::Server,
+                detail: format!("{e}; looked for its socket at {}", pipewire_socket()),
+            })
+        }
+        AudioHost::Alsa | AudioHost::Jack => cpal::host_from_id(cpal::HostId::Alsa)
+            .map_err(|e| LiveError::backend("opening the ALSA host", e)),
+    }
+}
+
+/// Where a PipeWire client looks for the server (libpipewire's own rule), for messages.
+fn pipewire_socket() -> String {
+    let var = |k: &str| std::env::var(k).ok().filter(|v| !v.is_empty());
+    let name = var("PIPEWIRE_REMOTE").unwrap_or_else(|| "pipewire-0".to_string());
+    match var("PIPEWIRE_RUNTIME_DIR").or_else(|| var("XDG_RUNTIME_DIR")) {
+        Some(dir) => format!("`{dir}/{name}`"),
+        None => format!("`{name}` (XDG_RUNTIME_DIR is not set)"),
+    }
+}
 
 /// The word that selects the host's default device.
 pub const DEFAULT_DEVICE: &str = "default";
@@ -118,24 +146,42 @@ pub(crate) fn find_device(
 /// libraries' own messages through (they are silenced otherwise: see [`QuietStderr`]).
 pub fn list_devices(verbose: bool) -> Result<String, LiveError> {
     let _quiet = (!verbose).then(QuietStderr::new);
-    list_devices_of(&cpal::default_host(), verbose)
+    let mut out = hosts_line();
+    out.push_str(&list_devices_of(
+        &open_host(crate::model::AudioHost::Alsa)?,
+        verbose,
+    )?);
+    // The JACK server's ports, or why it cannot be reached (library or server missing).
+    out.push('\n');
+    out.push_str(&super::jack_host::list_jack());
+    // The PipeWire server's nodes, or why it cannot be reached.
+    out.push('\n');
+    match open_host(crate::model::AudioHost::PipeWire) {
+        Ok(host) => out.push_str(&list_devices_of(&host, verbose)?),
+        Err(e) => {
+            let text = e.to_string();
+            let first = text.lines().next().unwrap_or_default();
+            let first = first.trim_start_matches("audio host `pipewire`: ");
+            out.push_str(&format!("audio host: pipewire: not available: {first}\n"));
+        }
+    }
+    Ok(out)
 }
 
 /// The `[audio] host` values and whether this build opens them, one line.
 fn hosts_line() -> String {
-    let built: Vec<String> = cpal::available_hosts()
+    // ALSA first (the default), then the other cpal hosts built in, then JACK (its own client).
+    let mut built: Vec<String> = cpal::ALL_HOSTS
         .iter()
         .map(|h| h.name().to_lowercase())
         .collect();
-    format!(
-        "audio hosts: {} (opened by this build); jack, pipewire (not built yet: reach their \
-         servers through the ALSA devices named jack or pipewire, where listed)\n",
-        built.join(", ")
-    )
+    built.sort_by_key(|h| h != "alsa");
+    built.push("jack".to_string());
+    format!("audio hosts: {} (opened by this build)\n", built.join(", "))
 }
 
 fn list_devices_of(host: &cpal::Host, verbose: bool) -> Result<String, LiveError> {
-    let mut out = hosts_line();
+    let mut out = String::new();
     out.push_str(&format!("audio host: {}\n", host.id().name()));
     for (direction, device) in [
         (Direction::Capture, host.default_input_device()),
@@ -383,16 +429,16 @@ fn join_ranges(ranges: &BTreeSet<(u32, u32)>) -> String {
 mod tests {
 
     // The `[audio] host` values the config reader accepts are each named, with whether this
-    // build opens them (cpal's available hosts: ALSA on Linux with default features).
+    // build opens them (cpal's available hosts: ALSA on Linux with default features; JACK
+    // through the jack crate).
     #[cfg(target_os = "linux")]
     #[test]
     fn the_hosts_line_names_every_config_host_and_what_this_build_opens() {
         let line = hosts_line();
         assert!(
-            line.starts_with("audio hosts: alsa (opened by this build)"),
+            line.starts_with("audio hosts: alsa, pipewire, jack (opened by this build)"),
             "{line}"
         );
-        assert!(line.contains("jack, pipewire (not built yet"), "{line}");
     }
     use super::*;
 

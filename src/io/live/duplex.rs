@@ -6,12 +6,13 @@ use std::sync::Arc;
 use cpal::traits::{DeviceTrait, StreamTrait};
 
 use super::capture_side::CaptureSide;
-use super::devices::{device_label, find_device, supported_configs, DEFAULT_DEVICE};
+use super::devices::{device_label, find_device, open_host, supported_configs, DEFAULT_DEVICE};
 use super::error::{Direction, LiveError};
+use super::jack_host::{start_jack, JackRequest, JackStreams};
 use super::memory_lock::lock_process_memory;
 use super::playback_side::PlaybackSide;
 use super::playout::PlayoutProgress;
-use super::realtime::{request_for_priority, SchedulingWatch};
+use super::realtime::{request_for_priority, LeftBecause, SchedulingRequest, SchedulingWatch};
 use super::ring::{duplex_sides, duplex_sides_two_clocks, RingPlan};
 use super::samples::{DeviceFormat, DeviceSample};
 use super::stream_choice::{choose_config, Choice};
@@ -36,10 +37,13 @@ pub struct DeviceRequest {
     pub callback_priority: u8,
     /// Lock the process's memory before the streams start, where the limits allow.
     pub lock_memory: bool,
-    /// The audio system to open the devices on (only ALSA is built so far).
+    /// The audio system to open the devices on (ALSA devices, or a JACK client).
     pub host: AudioHost,
     /// Whether capture and playback share a sample clock; two clocks are resampled.
     pub clocks: Clocks,
+    /// JACK: ports to connect the service's inputs from and its outputs to, in channel order.
+    pub connect_inputs: Vec<String>,
+    pub connect_outputs: Vec<String>,
 }
 
 impl Default for DeviceRequest {
@@ -54,6 +58,8 @@ impl Default for DeviceRequest {
             lock_memory: false,
             host: AudioHost::Alsa,
             clocks: Clocks::Auto,
+            connect_inputs: Vec::new(),
+            connect_outputs: Vec::new(),
         }
     }
 }
@@ -70,26 +76,50 @@ pub struct DuplexConfig {
     /// Periods the streams actually run with, as the backend reports them.
     pub input_period_frames: u32,
     pub output_period_frames: u32,
-    /// The ring between the callbacks (sized from the requested periods).
-    pub ring: RingPlan,
+    /// The ring between the callbacks (sized from the requested periods); `None` on a graph
+    /// host, where capture, engine and playback run in one callback.
+    pub ring: Option<RingPlan>,
 }
 
 impl DuplexConfig {
-    /// Delay added by the ring's silence prefill (device buffering, not filter delay).
+    /// Delay added by the ring's silence prefill (device buffering, not filter delay); 0 with
+    /// no ring.
     pub fn ring_latency_seconds(&self) -> f64 {
-        self.ring.added_latency_seconds(self.sample_rate)
+        self.ring
+            .map_or(0.0, |r| r.added_latency_seconds(self.sample_rate))
     }
 
     /// True when a stream runs a longer period than the ring was sized for, so the prefill
     /// covers less than two of its periods and under/overruns become likely.
     pub fn ring_undersized(&self) -> bool {
         let longest = self.input_period_frames.max(self.output_period_frames) as usize;
-        longest > self.ring.period_frames
+        self.ring.is_some_and(|r| longest > r.period_frames)
+    }
+
+    /// "ring" (a capture and a playback callback with a ring between them) or "one_callback"
+    /// (capture, engine and playback in the graph's one callback), as `status` spells it.
+    pub fn runs_as(&self) -> &'static str {
+        match self.ring {
+            Some(_) => "ring",
+            None => "one_callback",
+        }
     }
 }
 
 impl fmt::Display for DuplexConfig {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let Some(ring) = self.ring else {
+            return write!(
+                f,
+                "{} → {}, {} channel(s) at {} Hz, {}-frame blocks; capture, engine and playback \
+                 in one callback, no ring (no buffering added by redress)",
+                self.input_device,
+                self.output_device,
+                self.channels,
+                self.sample_rate,
+                self.input_period_frames,
+            );
+        };
         write!(
             f,
             "capture `{}` ({}, {}-frame period) → playback `{}` ({}, {}-frame period), \
@@ -103,10 +133,10 @@ impl fmt::Display for DuplexConfig {
             self.output_period_frames,
             self.channels,
             self.sample_rate,
-            self.ring.capacity_frames(),
-            self.ring.prefill_frames(),
+            ring.capacity_frames(),
+            ring.prefill_frames(),
             1000.0 * self.ring_latency_seconds(),
-            match self.ring.two_clocks {
+            match ring.two_clocks {
                 true => "; two clocks: playback resampled to hold the ring",
                 false => "",
             },
@@ -124,15 +154,24 @@ pub struct StreamErrorCounts {
 /// The running capture and playback streams. Dropping it stops both (capture first); the
 /// engine is dropped with the capture stream.
 pub struct DuplexStreams {
-    // Held only to be dropped. Field order is drop order: capture stops first, so the engine
-    // never runs while the playback side is gone.
-    _capture: cpal::Stream,
-    _playback: cpal::Stream,
+    running: Running,
     config: DuplexConfig,
     input_errors: Arc<StreamErrorCounter>,
     output_errors: Arc<StreamErrorCounter>,
     playout: Arc<PlayoutProgress>,
     scheduling: SchedulingWatch,
+}
+
+/// What runs the audio; held only to be dropped.
+enum Running {
+    // Field order is drop order: capture stops first, so the engine never runs while the
+    // playback side is gone.
+    Devices {
+        _capture: cpal::Stream,
+        _playback: cpal::Stream,
+    },
+    /// One JACK client: its process callback runs capture, engine and playback.
+    Jack(Box<JackStreams>),
 }
 
 /// Device buffering assumed when the playback device reports no delay: the ALSA backend keeps
@@ -175,6 +214,15 @@ impl DuplexStreams {
         }
     }
 
+    /// The block size the host runs now, where it may change while running (a graph server);
+    /// `None` for devices, which keep the period they were opened with.
+    pub fn block_frames_now(&self) -> Option<u32> {
+        match &self.running {
+            Running::Devices { .. } => None,
+            Running::Jack(jack) => Some(jack.block_frames()),
+        }
+    }
+
     /// What the callback threads run at and whether memory is locked.
     pub fn realtime(&self) -> &SchedulingWatch {
         &self.scheduling
@@ -208,7 +256,10 @@ pub fn start_duplex(
     stats: Arc<EngineStats>,
 ) -> Result<DuplexStreams, LiveError> {
     check_request(request, &engine)?;
-    let host = cpal::default_host();
+    if request.host == AudioHost::Jack {
+        return start_on_jack(request, engine);
+    }
+    let host = open_host(request.host)?;
     let input_device = find_device(&host, &request.input, Direction::Capture)?;
     let output_device = find_device(&host, &request.output, Direction::Playback)?;
     let input_label = device_label(&input_device);
@@ -235,7 +286,12 @@ pub fn start_duplex(
     let playout = capture.playout();
     // Before the streams start: with the future pages locked, their threads' stacks are too.
     let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
-    let asked = request_for_priority(request.callback_priority);
+    // A PipeWire server schedules its clients' data threads (its real-time module or RTKit):
+    // nothing is asked, what they run at is recorded.
+    let asked = match request.host {
+        AudioHost::PipeWire => SchedulingRequest::LeaveAsIs(LeftBecause::Server),
+        AudioHost::Alsa | AudioHost::Jack => request_for_priority(request.callback_priority),
+    };
     scheduling.add("capture and engine", asked, capture.set_scheduling(asked));
     scheduling.add("playback", asked, playback.set_scheduling(asked));
 
@@ -268,11 +324,13 @@ pub fn start_duplex(
         channels: request.channels,
         input_format: input_choice.format,
         output_format: output_choice.format,
-        ring,
+        ring: Some(ring),
     };
     Ok(DuplexStreams {
-        _capture: input,
-        _playback: output,
+        running: Running::Devices {
+            _capture: input,
+            _playback: output,
+        },
         config,
         input_errors,
         output_errors,
@@ -281,20 +339,75 @@ pub fn start_duplex(
     })
 }
 
+/// The JACK host: one client, the engine in its process callback (see [`super::jack_host`]).
+fn start_on_jack(request: &DeviceRequest, engine: Engine) -> Result<DuplexStreams, LiveError> {
+    // The memory is locked before the client's threads exist, so their stacks are too.
+    let mut scheduling = SchedulingWatch::new(lock_process_memory(request.lock_memory));
+    let jack = start_jack(
+        &JackRequest {
+            sample_rate: request.sample_rate,
+            channels: request.channels,
+            connect_inputs: &request.connect_inputs,
+            connect_outputs: &request.connect_outputs,
+        },
+        engine,
+    )?;
+    let (asked, slot) = jack.scheduling();
+    scheduling.add("jack process (capture, engine, playback)", asked, slot);
+    let setup = jack.setup();
+    let ports = |list: &[(String, Vec<String>)]| {
+        list.iter()
+            .map(|(port, peers)| match peers.as_slice() {
+                [] => port.clone(),
+                peers => format!("{port} ({})", peers.join(", ")),
+            })
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let config = DuplexConfig {
+        input_device: format!(
+            "jack client `{}`: {}",
+            setup.client_name,
+            ports(&setup.inputs)
+        ),
+        output_device: ports(&setup.outputs),
+        sample_rate: setup.sample_rate,
+        channels: request.channels,
+        input_format: DeviceFormat::F32,
+        output_format: DeviceFormat::F32,
+        input_period_frames: setup.block_frames,
+        output_period_frames: setup.block_frames,
+        ring: None,
+    };
+    let input_errors = Arc::clone(jack.errors());
+    let playout = Arc::clone(jack.playout());
+    Ok(DuplexStreams {
+        running: Running::Jack(Box::new(jack)),
+        config,
+        input_errors,
+        output_errors: Arc::new(StreamErrorCounter::default()),
+        playout,
+        scheduling,
+    })
+}
+
 fn check_request(request: &DeviceRequest, engine: &Engine) -> Result<(), LiveError> {
     // Refused rather than run on ALSA under another name: `status` would report a host the
     // audio does not go through.
-    if request.host != AudioHost::Alsa {
+    if request.host != AudioHost::Alsa && request.clocks == Clocks::Separate {
         return Err(LiveError::InvalidRequest {
-            field: "host",
-            value: request.host.key().to_string(),
-            why: "this build of redress opens ALSA devices only; its JACK and PipeWire hosts \
-                  are not written yet"
-                .to_string(),
-            help: "set host = \"alsa\" (or leave it out); a JACK or PipeWire server is reached \
-                   through its ALSA plugin: input_device = output_device = \"jack\" or \
-                   \"pipewire\" as `redress devices` lists them"
-                .to_string(),
+            field: "clocks",
+            value: "separate".to_string(),
+            why: format!(
+                "a {} graph runs the service's capture and playback on the server's one clock \
+                 (the server itself follows devices on other clocks); there is no second clock \
+                 to follow",
+                request.host.key()
+            ),
+            help: format!(
+                "leave clocks out (or \"shared\") with host = \"{}\"",
+                request.host.key()
+            ),
         });
     }
     let (lo, hi) = SAMPLE_RATE_RANGE;

@@ -63,12 +63,37 @@ pub enum LiveError {
         engine_channels: usize,
         requested: u16,
     },
+    /// A graph host (a sound server's client library) cannot be reached at all.
+    HostUnavailable {
+        /// The config's key for the host ("jack").
+        host: &'static str,
+        missing: HostMissing,
+        /// What the library said.
+        detail: String,
+    },
+    /// The graph host refused something after the client was opened (a port, a connection).
+    Graph {
+        host: &'static str,
+        /// What was being done ("connecting `system:capture_1` to `redress:in_1`").
+        context: String,
+        detail: String,
+        help: String,
+    },
     /// The audio backend refused an operation.
     Backend {
         /// What was being done ("opening capture device `…`").
         context: String,
         source: cpal::Error,
     },
+}
+
+/// What a graph host lacks when it cannot be reached.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum HostMissing {
+    /// The client library is not installed (it is loaded when the host is first used).
+    Library,
+    /// The library is there, the server is not running (or not for this user).
+    Server,
 }
 
 impl LiveError {
@@ -186,6 +211,45 @@ impl fmt::Display for LiveError {
                 "the filter set has {engine_channels} channel(s) but the devices were asked for \
                  {requested}\n  help: make the link's channel count and the audio channel count agree"
             ),
+            LiveError::HostUnavailable {
+                host,
+                missing: HostMissing::Library,
+                detail,
+            } => write!(
+                f,
+                "audio host `{host}`: its client library is not installed ({detail})\n  help: \
+                 install it (Debian: apt-get install libjack-jackd2-0), or set [audio] host = \
+                 \"alsa\""
+            ),
+            LiveError::HostUnavailable {
+                host,
+                missing: HostMissing::Server,
+                detail,
+            } => {
+                let how = match *host {
+                    "jack" => {
+                        "start it as the user the service runs as (e.g. `jackd -d alsa -r \
+                         48000`, or through the desktop's session), check JACK_DEFAULT_SERVER \
+                         if a named server is meant"
+                    }
+                    _ => {
+                        "start it (`pipewire` with its session manager `wireplumber`) as the user \
+                         the service runs as, and run the service in that user's session \
+                         (XDG_RUNTIME_DIR must lead to the server's socket)"
+                    }
+                };
+                write!(
+                    f,
+                    "audio host `{host}`: its server is not running ({detail})\n  help: {how}, \
+                     or set [audio] host = \"alsa\""
+                )
+            }
+            LiveError::Graph {
+                host,
+                context,
+                detail,
+                help,
+            } => write!(f, "audio host `{host}`: {context}: {detail}\n  help: {help}"),
             LiveError::Backend { context, source } => write!(
                 f,
                 "{context}: {source}\n  help: {}",
@@ -218,6 +282,33 @@ mod tests {
         assert!(text.starts_with("opening capture device `alsa:hw:CARD=1,DEV=0`: "));
         assert!(text.contains("help: another program holds the device"));
         assert!(std::error::Error::source(&e).is_some());
+    }
+
+    // A graph host that cannot be reached says which part is missing and what to do.
+    #[test]
+    fn an_unreachable_graph_host_names_what_is_missing() {
+        let library = LiveError::HostUnavailable {
+            host: "jack",
+            missing: HostMissing::Library,
+            detail: "libjack.so.0: cannot open shared object file".into(),
+        }
+        .to_string();
+        assert!(
+            library.starts_with("audio host `jack`: its client library is not installed"),
+            "{library}"
+        );
+        assert!(library.contains("help: install it"), "{library}");
+        let server = LiveError::HostUnavailable {
+            host: "jack",
+            missing: HostMissing::Server,
+            detail: "no JACK server named `default` answers".into(),
+        }
+        .to_string();
+        assert!(
+            server.starts_with("audio host `jack`: its server is not running"),
+            "{server}"
+        );
+        assert!(server.contains("help: start it"), "{server}");
     }
 
     #[test]

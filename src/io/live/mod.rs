@@ -9,6 +9,9 @@
 //! counted in the engine's `input_overruns` / `output_underruns`, so the two streams never
 //! drift apart silently.
 //!
+//! On JACK there is no ring: the server hands one client its capture and playback buffers in
+//! the same process callback, and the engine runs there ([`graph_side`], `jack_host`).
+//!
 //! Both callbacks allocate nothing, lock nothing and do no I/O or logging; the streams' error
 //! callbacks only count into atomics ([`StreamErrorCounter`]) and the control thread reports.
 //! The callback bodies are plain methods so tests run the real code without a device.
@@ -21,6 +24,8 @@ mod drift_stage;
 pub use drift_stage::PushClock;
 mod duplex;
 mod error;
+pub mod graph_side;
+mod jack_host;
 mod memory_lock;
 mod os_scheduling;
 mod playback_side;
@@ -43,7 +48,8 @@ pub use capture_side::CaptureSide;
 pub use devices::{list_devices, DEFAULT_DEVICE};
 pub use dither::TpdfDither;
 pub use duplex::{start_duplex, DeviceRequest, DuplexConfig, DuplexStreams, StreamErrorCounts};
-pub use error::{Direction, LiveError};
+pub use error::{Direction, HostMissing, LiveError};
+pub use jack_host::{input_port_name, output_port_name, CLIENT_NAME as JACK_CLIENT_NAME};
 pub use memory_lock::{lock_process_memory, tune_allocator_for_locking, MemoryLock};
 pub use playback_side::PlaybackSide;
 pub use playout::PlayoutProgress;

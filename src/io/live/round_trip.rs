@@ -73,7 +73,7 @@ struct OutputLog {
 /// Plays `request.signal` once on every output channel and records the input, then stops
 /// both streams. Allocation happens before the streams start (buffers sized for the run).
 pub fn record_loop(request: &LoopRequest) -> Result<LoopRecording, LiveError> {
-    let host = cpal::default_host();
+    let host = super::devices::open_host(crate::model::AudioHost::Alsa)?;
     let devices = &request.devices;
     let input_device = find_device(&host, &devices.input, Direction::Capture)?;
     let output_device = find_device(&host, &devices.output, Direction::Playback)?;
