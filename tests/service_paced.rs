@@ -14,7 +14,9 @@ use redress::io::{generate, ProgrammeSpec};
 use service_support::recording::read_raw;
 use service_support::{start_paced, temp_dir, u, BROKEN, LINK_A, LINK_B};
 
-use service_support::settled::{frame_matches, offline, walk, Gaps, CHANNELS, SEARCH_FRAMES};
+use service_support::settled::{
+    align, count_step, live_index, offline, realign, walk, Gaps, CHANNELS,
+};
 
 const RATE: f64 = 48_000.0;
 
@@ -84,7 +86,6 @@ fn paced_run_with_bad_and_good_reloads() {
     );
 
     let live = read_raw(&raw_out);
-    let live_frames = live.len() / CHANNELS;
     let expected_a = offline(LINK_A, &input);
     let expected_b = offline(LINK_B, &input);
 
@@ -94,10 +95,11 @@ fn paced_run_with_bad_and_good_reloads() {
     // the playback side inserted and counted as an underrun, or a gap where the capture side
     // dropped frames and counted them as an overrun. Nothing else may differ.
     let probe = 24_000;
-    let mut offset = (0..live_frames - 8)
-        .find(|&l| (0..8).all(|k| frame_matches(&live, l + k, &expected_a, probe + k)))
-        .expect("the equalized programme appears in the recording")
-        - probe;
+    let mut offset = align(&live, &expected_a, probe, 8)
+        .expect("the equalized programme appears in the recording");
+    // Negative when the capture side lost input before the first frame was recorded (start-up
+    // overruns, e.g. while locking the sound server's buffers delays the playback stream).
+    eprintln!("recording aligned at {offset} frames (live frame = programme frame + offset)");
     let mut gaps = Gaps::default();
     // From the probe through the rejected reload and up to the good one: the first filter.
     let until = hup_frame as usize;
@@ -121,22 +123,10 @@ fn paced_run_with_bad_and_good_reloads() {
         after_to > after_from + 24_000,
         "too little audio after the swap"
     );
-    let b_at = |o: usize| {
-        o + after_from + 8 <= live_frames
-            && (0..8).all(|k| frame_matches(&live, o + after_from + k, &expected_b, after_from + k))
-    };
-    // Nearest alignment first: unchanged, then later (silence inserted), then earlier (dropped).
-    let realigned = (0..=SEARCH_FRAMES)
-        .flat_map(|k| [Some(offset_at_swap + k), offset_at_swap.checked_sub(k)])
-        .flatten()
-        .find(|&o| b_at(o))
+    let realigned = realign(&live, &expected_b, after_from, offset_at_swap, 8)
         .expect("the second filter's result appears after the swap");
     let swap_window_clean = realigned == offset_at_swap;
-    if realigned > offset_at_swap {
-        gaps.inserted += realigned - offset_at_swap;
-    } else {
-        gaps.dropped += offset_at_swap - realigned;
-    }
+    count_step(&mut gaps, offset_at_swap, realigned);
     walk(
         &live,
         realigned,
@@ -177,7 +167,8 @@ fn paced_run_with_bad_and_good_reloads() {
         .map(|i| (expected_a[i] - expected_b[i]).abs())
         .fold(0.0, f32::max);
     let own = max_step(&expected_a, from, to).max(max_step(&expected_b, from, to));
-    let got = max_step(&live, offset + from, offset + to);
+    let live_at = |n: usize| live_index(offset, n).expect("the swap lies inside the recording");
+    let got = max_step(&live, live_at(from), live_at(to));
     assert!(
         got <= own + spread / crossfade + 1e-5,
         "largest step {got} exceeds the filters' own {own} plus the crossfade's {}",

@@ -20,7 +20,7 @@ use std::process::{Child, Command, Stdio};
 use std::time::{Duration, Instant};
 
 use redress::io::{generate, ProgrammeSpec};
-use service_support::settled::{frame_matches, offline, walk, Gaps, CHANNELS, SEARCH_FRAMES};
+use service_support::settled::{align, count_step, offline, realign, walk, Gaps, CHANNELS};
 use service_support::{start, temp_dir, u, LINK_A, LINK_B};
 
 const RATE: f64 = 48_000.0;
@@ -286,7 +286,6 @@ fn pipewire_host_matches_offline_through_a_reload() {
 
     let mut reader = hound::WavReader::open(&recorded).expect("pw-record wrote a WAV file");
     let live: Vec<f32> = reader.samples::<f32>().map_while(Result::ok).collect();
-    let live_frames = live.len() / CHANNELS;
     let expected_a = offline(LINK_A, &input);
     let expected_b = offline(LINK_B, &input);
     // Programme frames from engine frames: an upper bound, since pw-cat starts a little after
@@ -295,10 +294,8 @@ fn pipewire_host_matches_offline_through_a_reload() {
     let startup = 24_000;
 
     let probe = 9_600 + 4_800;
-    let mut offset = (0..live_frames.saturating_sub(32))
-        .find(|&l| (0..32).all(|k| frame_matches(&live, l + k, &expected_a, probe + k)))
-        .expect("the equalized programme appears in the recording")
-        - probe;
+    let mut offset = align(&live, &expected_a, probe, 32)
+        .expect("the equalized programme appears in the recording");
     let mut gaps = Gaps::default();
     let until = programme_at(hup_frame) - startup;
     assert!(until > probe + 48_000, "too little audio before the reload");
@@ -317,21 +314,9 @@ fn pipewire_host_matches_offline_through_a_reload() {
         after_to > after_from + 48_000,
         "too little audio after the swap"
     );
-    let b_at = |o: usize| {
-        o + after_from + 32 <= live_frames
-            && (0..32)
-                .all(|k| frame_matches(&live, o + after_from + k, &expected_b, after_from + k))
-    };
-    let realigned = (0..=SEARCH_FRAMES)
-        .flat_map(|k| [Some(offset + k), offset.checked_sub(k)])
-        .flatten()
-        .find(|&o| b_at(o))
+    let realigned = realign(&live, &expected_b, after_from, offset, 32)
         .expect("the second filter's result appears after the swap");
-    if realigned > offset {
-        gaps.inserted += realigned - offset;
-    } else {
-        gaps.dropped += offset - realigned;
-    }
+    count_step(&mut gaps, offset, realigned);
     walk(
         &live,
         realigned,

@@ -37,49 +37,89 @@ pub struct Gaps {
     pub at: Vec<usize>,
 }
 
-/// Checks live frames `offset + n` against `reference` frame n for n in from..to, following
+/// The live frame that holds reference frame `n` when the recording is aligned at `offset`
+/// (live = n + offset; negative when the device path lost input frames before the recording
+/// began), or `None` when that frame comes before the recording.
+pub fn live_index(offset: isize, n: usize) -> Option<usize> {
+    usize::try_from(n as isize + offset).ok()
+}
+
+/// `run` live frames from `l` equal the reference from `n`.
+fn runs_from(live: &[f32], l: usize, reference: &[f32], n: usize, run: usize) -> bool {
+    l + run <= live.len() / CHANNELS
+        && n + run <= reference.len() / CHANNELS
+        && (0..run).all(|k| frame_matches(live, l + k, reference, n + k))
+}
+
+/// The alignment at which `run` reference frames from `probe` first appear in the recording.
+pub fn align(live: &[f32], reference: &[f32], probe: usize, run: usize) -> Option<isize> {
+    (0..live.len() / CHANNELS)
+        .find(|&l| runs_from(live, l, reference, probe, run))
+        .map(|l| l as isize - probe as isize)
+}
+
+/// The alignment nearest `near` (unchanged, then later, then earlier, up to [`SEARCH_FRAMES`])
+/// at which `run` reference frames from `from` appear: after a swap, found again.
+pub fn realign(
+    live: &[f32],
+    reference: &[f32],
+    from: usize,
+    near: isize,
+    run: usize,
+) -> Option<isize> {
+    (0..=SEARCH_FRAMES as isize)
+        .flat_map(|k| [near + k, near - k])
+        .find(|&o| live_index(o, from).is_some_and(|l| runs_from(live, l, reference, from, run)))
+}
+
+/// Adds the step from alignment `before` to `after` to the gaps: a later alignment is silence
+/// inserted, an earlier one frames dropped.
+pub fn count_step(gaps: &mut Gaps, before: isize, after: isize) {
+    if after > before {
+        gaps.inserted += (after - before) as usize;
+    } else {
+        gaps.dropped += (before - after) as usize;
+    }
+}
+
+/// Checks live frames `n + offset` against `reference` frame n for n in from..to, following
 /// counted gaps; returns the alignment at the end.
 pub fn walk(
     live: &[f32],
-    mut offset: usize,
+    mut offset: isize,
     from: usize,
     to: usize,
     reference: &[f32],
     what: &str,
     gaps: &mut Gaps,
-) -> usize {
+) -> isize {
     let live_frames = live.len() / CHANNELS;
     let silent = |l: usize| (0..CHANNELS).all(|c| live[l * CHANNELS + c] == 0.0);
-    let resumes = |o: usize, n: usize| {
-        o + n + 8 <= live_frames && (0..8).all(|k| frame_matches(live, o + n + k, reference, n + k))
-    };
     let mut n = from;
     while n < to {
-        assert!(
-            offset + n < live_frames,
-            "the recording ends at frame {n} of {what}"
-        );
-        if frame_matches(live, offset + n, reference, n) {
+        let l = live_index(offset, n)
+            .unwrap_or_else(|| panic!("frame {n} of {what} comes before the recording begins"));
+        assert!(l < live_frames, "the recording ends at frame {n} of {what}");
+        if frame_matches(live, l, reference, n) {
             n += 1;
             continue;
         }
         // Silence the playback side inserted, then possibly frames the capture side dropped
         // while playback was stalled.
         let gap = (0..SEARCH_FRAMES)
-            .take_while(|&k| offset + n + k < live_frames && silent(offset + n + k))
+            .take_while(|&k| l + k < live_frames && silent(l + k))
             .count();
         // Frames dropped by the capture side never reach the recording: after the silence the
         // output resumes with reference frame n + skip.
         let Some(skip) =
-            (0..SEARCH_FRAMES.min(offset + gap + 1)).find(|&k| resumes(offset + gap - k, n + k))
+            (0..SEARCH_FRAMES).find(|&k| runs_from(live, l + gap, reference, n + k, 8))
         else {
             let show = |v: &[f32], f: usize| v[f * CHANNELS..(f + 1) * CHANNELS].to_vec();
             panic!(
-                "frame {n}: the recording is neither {what} nor a counted gap (live frame {}: \
+                "frame {n}: the recording is neither {what} nor a counted gap (live frame {l}: \
                  {:?}, next {:?}; expected {:?}, next {:?}; {gap} silent frames follow)",
-                offset + n,
-                show(live, offset + n),
-                show(live, offset + n + 1),
+                show(live, l),
+                show(live, l + 1),
                 show(reference, n),
                 show(reference, n + 1)
             );
@@ -87,7 +127,7 @@ pub fn walk(
         gaps.inserted += gap;
         gaps.dropped += skip;
         gaps.at.push(n);
-        offset = offset + gap - skip;
+        offset += gap as isize - skip as isize;
         n += skip;
     }
     offset
