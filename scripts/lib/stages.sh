@@ -26,6 +26,9 @@ print_stage_times() {
         echo "$line" >&2
     done
     printf '%6d s  all\n' "$(($(date +%s) - STAGE_STARTED))" >&2
+    # Which processor the times (and the fixtures' last bits) come from.
+    echo "   on: $(grep -m1 'model name' /proc/cpuinfo 2>/dev/null | cut -d: -f2- | sed 's/^ *//')," \
+        "$(nproc 2>/dev/null) cores, OpenBLAS core type ${OPENBLAS_CORETYPE:-chosen by itself}" >&2
 }
 
 trap print_stage_times EXIT
