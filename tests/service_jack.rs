@@ -26,7 +26,7 @@ use ringbuf::traits::{Consumer, Producer, Split};
 use ringbuf::HeapRb;
 use service_support::recording::write_raw;
 use service_support::settled::{frame_matches, offline, CHANNELS, SEARCH_FRAMES, TOLERANCE};
-use service_support::{start, temp_dir, u, LINK_A, LINK_B};
+use service_support::{frames_at_least, start, temp_dir, u, LINK_A, LINK_B};
 
 const RATE: f64 = 48_000.0;
 /// The dummy driver's block size (frames).
@@ -187,9 +187,6 @@ fn jack_host_matches_offline_through_a_reload() {
         first["audio"]["description"], first["audio"]["realtime"]
     );
     // Past the fade-in before the programme starts, so the comparison needs no exception for it.
-    let frames_at_least = |n: u64| {
-        move |d: &serde_json::Value| d.pointer("/engine/frames").and_then(|v| v.as_u64()) >= Some(n)
-    };
     let settled = svc.wait_for("0.2 s of silence", frames_at_least(9_600));
     let start_frame = u(&settled, "/engine/frames");
     let xruns_before = u(&settled, "/audio/stream_errors");
@@ -197,13 +194,7 @@ fn jack_host_matches_offline_through_a_reload() {
 
     let before = svc.wait_for("1.5 s of programme", frames_at_least(start_frame + 72_000));
     let hup_frame = u(&before, "/engine/frames");
-    std::fs::write(&config, format!("{LINK_B}{audio}")).unwrap();
-    svc.signal("HUP");
-    let swapped = svc.wait_for("generation 2 to run", |d| {
-        d.pointer("/engine/running_generation")
-            .and_then(|v| v.as_u64())
-            == Some(2)
-    });
+    let swapped = svc.reload_to_generation(&config, &format!("{LINK_B}{audio}"), 2);
     assert_eq!(
         u(&swapped, "/audio/restarts"),
         0,

@@ -17,7 +17,7 @@ use serde_json::Value;
 use service_support::recording::{
     bypass, cpu_ticks, offline, read_raw, rss_kb, silent_frames, walk, GapBudget, CHANNELS,
 };
-use service_support::{start_paced, temp_dir, u, BROKEN, LINK_A, LINK_B};
+use service_support::{frames_at_least, start_paced, temp_dir, u, BROKEN, LINK_A, LINK_B};
 
 const RATE: f64 = 48_000.0;
 const AUDIO: &str = "\n[audio]\nbuffer_frames = 512\n";
@@ -41,10 +41,6 @@ fn gap_budget(inserted: usize, dropped: usize, d: &Value) -> GapBudget {
         stream_errors: u(d, "/audio/stream_errors") as usize,
         period_frames: PERIOD_FRAMES,
     }
-}
-
-fn frames_at_least(n: u64) -> impl Fn(&Value) -> bool {
-    move |d: &Value| d.pointer("/engine/frames").and_then(Value::as_u64) >= Some(n)
 }
 
 fn running(d: &Value) -> u64 {

@@ -21,7 +21,7 @@ use std::time::{Duration, Instant};
 
 use redress::io::{generate, ProgrammeSpec};
 use service_support::settled::{align, count_step, offline, realign, walk, Gaps, CHANNELS};
-use service_support::{start, temp_dir, u, LINK_A, LINK_B};
+use service_support::{frames_at_least, start, temp_dir, u, LINK_A, LINK_B};
 
 const RATE: f64 = 48_000.0;
 
@@ -217,9 +217,6 @@ fn pipewire_host_matches_offline_through_a_reload() {
         "service: {}\nrealtime: {}",
         first["audio"]["description"], first["audio"]["realtime"]
     );
-    let frames_at_least = |n: u64| {
-        move |d: &serde_json::Value| d.pointer("/engine/frames").and_then(|v| v.as_u64()) >= Some(n)
-    };
     svc.wait_for("0.2 s of audio", frames_at_least(9_600));
     let links = tool(&runtime, &["pw-link", "-l"]);
     for (ours, theirs) in [
@@ -264,13 +261,7 @@ fn pipewire_host_matches_offline_through_a_reload() {
 
     let before = svc.wait_for("2 s of programme", frames_at_least(start_frame + 96_000));
     let hup_frame = u(&before, "/engine/frames");
-    std::fs::write(&config, format!("{LINK_B}{audio}")).unwrap();
-    svc.signal("HUP");
-    let swapped = svc.wait_for("generation 2 to run", |d| {
-        d.pointer("/engine/running_generation")
-            .and_then(|v| v.as_u64())
-            == Some(2)
-    });
+    let swapped = svc.reload_to_generation(&config, &format!("{LINK_B}{audio}"), 2);
     assert_eq!(
         u(&swapped, "/audio/restarts"),
         0,
@@ -343,16 +334,7 @@ fn pipewire_host_matches_offline_through_a_reload() {
         f("/engine/callback_p99_us"),
         f("/engine/callback_max_us"),
     );
-    assert!(
-        gaps.inserted * CHANNELS <= u(&end, "/engine/output_underruns") as usize,
-        "{} silent frames in the recording, more than the underruns counted",
-        gaps.inserted
-    );
-    assert!(
-        gaps.dropped * CHANNELS <= u(&end, "/engine/input_overruns") as usize,
-        "{} frames missing from the recording, more than the overruns counted",
-        gaps.dropped
-    );
+    gaps.assert_counted(&end);
     drop(pw);
 }
 

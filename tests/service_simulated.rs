@@ -25,13 +25,7 @@ fn good_reload_swaps_bad_reload_changes_nothing_and_term_exits_zero() {
     let first = svc.wait_ready();
     assert_eq!(u(&first, "/config_generation"), 1);
 
-    std::fs::write(&config, LINK_B).unwrap();
-    svc.signal("HUP");
-    let swapped = svc.wait_for("generation 2 to run", |d| {
-        d.pointer("/engine/running_generation")
-            .and_then(|v| v.as_u64())
-            == Some(2)
-    });
+    let swapped = svc.reload_to_generation(&config, LINK_B, 2);
     assert_eq!(u(&swapped, "/reloads/succeeded"), 1);
     assert_eq!(u(&swapped, "/engine/swaps_completed"), 1);
 

@@ -110,6 +110,11 @@ pub fn start(dir: &Path, config: &Path, args: &[&str], env: &[(&str, &Path)]) ->
     Service { child, socket, log }
 }
 
+/// A status condition: the engine has run at least `n` frames.
+pub fn frames_at_least(n: u64) -> impl Fn(&Value) -> bool {
+    move |d: &Value| d.pointer("/engine/frames").and_then(Value::as_u64) >= Some(n)
+}
+
 impl Service {
     /// Waits until the status socket answers; panics with the log if the service died first.
     pub fn wait_ready(&mut self) -> Value {
@@ -138,6 +143,17 @@ impl Service {
             );
             std::thread::sleep(Duration::from_millis(50));
         }
+    }
+
+    /// Writes `text` over `config`, sends HUP and waits until generation `generation` runs.
+    pub fn reload_to_generation(&mut self, config: &Path, text: &str, generation: u64) -> Value {
+        std::fs::write(config, text).unwrap();
+        self.signal("HUP");
+        self.wait_for(&format!("generation {generation} to run"), |d| {
+            d.pointer("/engine/running_generation")
+                .and_then(Value::as_u64)
+                == Some(generation)
+        })
     }
 
     /// The status document, if the socket answers.

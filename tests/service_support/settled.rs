@@ -51,6 +51,23 @@ fn runs_from(live: &[f32], l: usize, reference: &[f32], n: usize, run: usize) ->
         && (0..run).all(|k| frame_matches(live, l + k, reference, n + k))
 }
 
+impl Gaps {
+    /// Every gap found is one the engine counted: silence inserted within its underruns,
+    /// frames dropped within its overruns (both counted in samples).
+    pub fn assert_counted(&self, end: &serde_json::Value) {
+        assert!(
+            self.inserted * CHANNELS <= super::u(end, "/engine/output_underruns") as usize,
+            "{} silent frames in the recording, more than the underruns counted",
+            self.inserted
+        );
+        assert!(
+            self.dropped * CHANNELS <= super::u(end, "/engine/input_overruns") as usize,
+            "{} frames missing from the recording, more than the overruns counted",
+            self.dropped
+        );
+    }
+}
+
 /// The alignment at which `run` reference frames from `probe` first appear in the recording.
 pub fn align(live: &[f32], reference: &[f32], probe: usize, run: usize) -> Option<isize> {
     (0..live.len() / CHANNELS)
